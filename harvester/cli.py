@@ -1,0 +1,206 @@
+"""The ``harvester`` command: a thin shell over the Python API.
+
+Each command parses its options, makes one API call, renders the result, and turns a
+HarvesterError into one line on stderr and a non-zero exit status (no traceback).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import sys
+from enum import Enum
+from pathlib import Path
+from typing import Annotated, NoReturn
+
+import typer
+
+from harvester import __version__
+from harvester.errors import HarvesterError
+from harvester.extract.rules import TableRule
+from harvester.extract.table import extract_grid, extract_table, read_page
+from harvester.render import (
+    grid_to_csv,
+    grid_to_json,
+    table_rows,
+    table_to_csv,
+    table_to_json,
+    table_to_rich,
+    write_parquet,
+)
+
+__all__ = ["CAUTION", "app", "main"]
+
+CAUTION = (
+    "Harvesting can breach a site's terms of use, copyright or database rights, and privacy law. "
+    "robots.txt is not permission: you defer to the site's terms and to your local law. "
+    "harvester identifies itself honestly and never helps evade blocks."
+)
+
+EXIT_CODES = """Exit status: 0 success; 1 error; 2 bad usage or invalid recipe; 3 table not found or
+not readable as asked."""
+
+app = typer.Typer(
+    name="harvester",
+    help=f"A polite, cached web-table harvester with a snapshot archive.\n\n{CAUTION}\n\n{EXIT_CODES}",
+    no_args_is_help=True,
+    add_completion=False,
+    pretty_exceptions_enable=False,
+)
+
+
+class OutputFormat(str, Enum):
+    """How ``extract`` prints its result."""
+
+    table = "table"
+    csv = "csv"
+    json = "json"
+    parquet = "parquet"
+
+
+def _fail(error: HarvesterError) -> NoReturn:
+    typer.echo(f"error: {error}", err=True)
+    raise typer.Exit(error.exit_code)
+
+
+def _usage(message: str) -> NoReturn:
+    typer.echo(f"error: {message}", err=True)
+    raise typer.Exit(2)
+
+
+def _version(value: bool) -> None:
+    if value:
+        typer.echo(f"harvester {__version__}")
+        raise typer.Exit(0)
+
+
+@app.callback()
+def _main(
+    version: Annotated[
+        bool,
+        typer.Option("--version", callback=_version, is_eager=True, help="Print the version."),
+    ] = False,
+) -> None:
+    """A polite, cached web-table harvester with a snapshot archive."""
+
+
+def _read_input(path: str) -> bytes:
+    if path == "-":
+        return sys.stdin.buffer.read()
+    try:
+        return Path(path).read_bytes()
+    except OSError as exc:
+        _usage(f"{path}: cannot read the file ({exc.strerror}) — check the path")
+
+
+def _rule_for(
+    recipe: Path | None,
+    table: str | None,
+    select: str | None,
+    index: int | None,
+    header_rows: int | None,
+    drop_hidden: bool,
+) -> TableRule:
+    if recipe is not None:
+        from harvester.recipe import load_recipe
+
+        loaded = load_recipe(recipe)
+        if table is None:
+            if len(loaded.tables) != 1:
+                names = ", ".join(t.rule.name for t in loaded.tables)
+                _usage(f"{recipe}: the recipe has several tables ({names}) — add --table NAME")
+            rule = loaded.tables[0].rule
+        else:
+            rule = loaded.table(table)
+    elif table is not None:
+        _usage("--table needs --recipe — add --recipe RECIPE.toml")
+    else:
+        rule = TableRule()
+    changes: dict[str, object] = {}
+    if select is not None:
+        changes["select"] = select
+    if index is not None:
+        changes["index"] = index
+    if header_rows is not None:
+        changes["header_rows"] = header_rows
+    if drop_hidden:
+        changes["hidden"] = "drop"
+    return dataclasses.replace(rule, **changes) if changes else rule
+
+
+@app.command()
+def extract(
+    file: Annotated[str, typer.Argument(help="A saved HTML page, or - for standard input.")],
+    select: Annotated[
+        str | None, typer.Option("--select", "-s", help="CSS selector naming the table.")
+    ] = None,
+    index: Annotated[
+        int | None, typer.Option("--index", "-i", help="Which match of the selector (0 = first).")
+    ] = None,
+    grid: Annotated[
+        bool, typer.Option("--grid", help="Print the span-expanded grid (no header line).")
+    ] = False,
+    header_rows: Annotated[
+        int | None, typer.Option("--header-rows", help="Number of header rows (default: detect).")
+    ] = None,
+    output_format: Annotated[
+        OutputFormat | None,
+        typer.Option("--format", "-f", help="table (default on a terminal), csv, json or parquet."),
+    ] = None,
+    out: Annotated[Path | None, typer.Option("--out", "-o", help="File for --format parquet.")] = None,
+    recipe: Annotated[
+        Path | None, typer.Option("--recipe", help="Apply a recipe's table rule to the page.")
+    ] = None,
+    table: Annotated[str | None, typer.Option("--table", help="Which table of the recipe.")] = None,
+    drop_hidden: Annotated[
+        bool, typer.Option("--drop-hidden", help="Leave out cells hidden with display:none.")
+    ] = False,
+    base_url: Annotated[
+        str | None, typer.Option("--base-url", help="Resolve relative links against this URL.")
+    ] = None,
+) -> None:
+    """Read one table from a saved HTML page.
+
+    Example: harvester extract players.html --select "table#players" --header-rows 2 --format json
+    """
+    chosen = output_format or (OutputFormat.table if sys.stdout.isatty() else OutputFormat.csv)
+    if chosen is OutputFormat.parquet and out is None:
+        _usage("--format parquet writes a file — add --out PATH")
+    if grid and chosen is OutputFormat.parquet:
+        _usage("--grid prints text slots — use --format csv, json or table")
+    data = _read_input(file)
+    source = "<stdin>" if file == "-" else file
+    try:
+        rule = _rule_for(recipe, table, select, index, header_rows, drop_hidden)
+        page = read_page(data, source)
+        if grid:
+            slots = extract_grid(page, rule.select, rule.index, drop_hidden=rule.hidden == "drop")
+            if chosen is OutputFormat.csv:
+                grid_to_csv(slots, sys.stdout)
+            elif chosen is OutputFormat.json:
+                grid_to_json(slots, sys.stdout)
+            else:
+                table_to_rich(slots, None, sys.stdout)
+            return
+        result = extract_table(page, rule, base_url=base_url)
+    except HarvesterError as error:
+        _fail(error)
+    if chosen is OutputFormat.csv:
+        table_to_csv(result.table, sys.stdout)
+    elif chosen is OutputFormat.json:
+        table_to_json(result.table, sys.stdout)
+    elif chosen is OutputFormat.parquet:
+        assert out is not None
+        write_parquet(result.table, out)
+        typer.echo(f"wrote {result.table.num_rows} rows to {out}", err=True)
+    else:
+        rows = [list(row.values()) for row in table_rows(result.table)]
+        table_to_rich(rows, result.table.column_names, sys.stdout, title=result.caption or "")
+
+
+def main() -> None:
+    """Run the command line (the ``harvester`` console script)."""
+    app()
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,81 @@
+"""One exception tree for everything harvester reports to a user.
+
+    HarvesterError                      every error a user can act on; ``str()`` is one line
+    ├── RecipeError(ValueError)         a recipe file is unreadable or invalid (file + key path)
+    ├── ExtractError(ValueError)        a table cannot be located or read from a page
+    │   └── TableNotFoundError(LookupError)  a selector matched no table, or several
+    ├── ValueParseError(ValueError)     a cell does not parse as its column's declared type
+    ├── FetchError                      reserved for the fetcher (HTTP, limits, robots.txt)
+    └── StoreError                      reserved for the archive
+
+Each error carries a ``hint`` saying what to do; the CLI prints ``message`` then the hint on the
+same line and exits non-zero, with no traceback.
+"""
+
+from __future__ import annotations
+
+__all__ = [
+    "ExtractError",
+    "FetchError",
+    "HarvesterError",
+    "RecipeError",
+    "StoreError",
+    "TableNotFoundError",
+    "ValueParseError",
+]
+
+
+class HarvesterError(Exception):
+    """An error a user can act on: what went wrong, where, and what to do."""
+
+    exit_code = 1
+
+    def __init__(self, message: str, *, hint: str = "") -> None:
+        super().__init__(message)
+        self.message = message
+        self.hint = hint
+
+    def __str__(self) -> str:
+        if self.hint:
+            return f"{self.message} — {self.hint}"
+        return self.message
+
+
+class RecipeError(HarvesterError, ValueError):
+    """A recipe file cannot be read, or a key in it is invalid."""
+
+    exit_code = 2
+
+    def __init__(self, message: str, *, path: str = "", key: str = "", hint: str = "") -> None:
+        where = ": ".join(part for part in (path, key) if part)
+        super().__init__(f"{where}: {message}" if where else message, hint=hint)
+        self.path = path
+        self.key = key
+
+
+class ExtractError(HarvesterError, ValueError):
+    """A table cannot be read from a page as its rule asks."""
+
+    exit_code = 3
+
+
+class TableNotFoundError(ExtractError, LookupError):
+    """A selector matched no table, or several when one was expected."""
+
+
+class ValueParseError(HarvesterError, ValueError):
+    """A cell does not parse as the type its column declares."""
+
+    exit_code = 3
+
+
+class FetchError(HarvesterError):
+    """A page could not be fetched (reserved for the fetcher)."""
+
+    exit_code = 4
+
+
+class StoreError(HarvesterError):
+    """The archive could not be read or written (reserved for the archive)."""
+
+    exit_code = 5

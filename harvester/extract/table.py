@@ -1,0 +1,222 @@
+"""Read one table from a page into a typed Arrow table, as a table rule says.
+
+The steps, each in its own module: locate (selector, comments) → grid (WHATWG table model) →
+headers (detect, collapse, rename) → row drops (repeated headers, group labels, empty rows, the
+rule's patterns) → values (typed columns, markers, links).
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Sequence
+from dataclasses import dataclass
+from urllib.parse import urljoin
+
+import pyarrow as pa
+
+from harvester.errors import ExtractError
+from harvester.extract.decode import decode_html
+from harvester.extract.grid import Grid, build_grid
+from harvester.extract.headers import (
+    collapse_headers,
+    deduplicate,
+    header_row_indices,
+    is_group_label_row,
+    rename_columns,
+)
+from harvester.extract.locate import Page, locate_table
+from harvester.extract.rules import ColumnRule, TableRule
+from harvester.extract.values import convert_column
+
+__all__ = ["ExtractedTable", "extract_grid", "extract_table", "read_page"]
+
+
+@dataclass(frozen=True)
+class ExtractedTable:
+    """A table read from a page: typed columns plus where each row came from."""
+
+    name: str
+    table: pa.Table
+    source_rows: tuple[int, ...]  # 0-based grid row of each output row
+    selector: str
+    index: int  # which of the selector's matches
+    in_comment: bool
+    caption: str | None
+    overlaps: int  # slots two cells claimed (HTML §4.9.12.1 table model errors)
+
+
+@dataclass
+class _Body:
+    rows: list[int]
+    texts: list[tuple[str, ...]]
+    groups: list[str | None]
+
+
+def read_page(html: str | bytes, source: str = "<page>", encoding: str | None = None) -> Page:
+    """Parse a page given as text or bytes (bytes decoded as a browser would)."""
+    text = decode_html(html, encoding) if isinstance(html, bytes) else html
+    return Page(text, source)
+
+
+def _as_page(page: Page | str | bytes, source: str) -> Page:
+    return page if isinstance(page, Page) else read_page(page, source)
+
+
+def extract_grid(
+    page: Page | str | bytes,
+    select: str = "table",
+    index: int | None = None,
+    *,
+    drop_hidden: bool = False,
+    source: str = "<page>",
+) -> list[list[str]]:
+    """The span-expanded grid of the table ``select`` names: every slot's text, row by row."""
+    located = locate_table(_as_page(page, source), select, index)
+    return build_grid(located.node, drop_hidden=drop_hidden).texts()
+
+
+def extract_table(
+    page: Page | str | bytes,
+    rule: TableRule | None = None,
+    *,
+    base_url: str | None = None,
+    source: str = "<page>",
+) -> ExtractedTable:
+    """Read the table ``rule`` names on ``page`` into typed columns.
+
+    ``base_url`` resolves relative link targets kept by ``link_of`` columns.
+    """
+    rule = rule or TableRule()
+    page = _as_page(page, source)
+    located = locate_table(page, rule.select, rule.index)
+    where = f"{page.source}: table {rule.name!r} ({rule.select})"
+    grid = build_grid(located.node, drop_hidden=rule.hidden == "drop")
+    header_rows = header_row_indices(grid, rule.header_rows)
+    names = deduplicate(collapse_headers(grid, header_rows, rule.header_separator))
+    names = rename_columns(names, rule.rename, where)
+    _check_column_rules(rule, names, where)
+
+    body = _body_rows(grid, header_rows, rule)
+    body = _apply_row_drops(body, names, rule, where)
+    columns: list[pa.Array] = []
+    column_names: list[str] = []
+    if rule.group_rows == "column" and any(group is not None for group in body.groups):
+        columns.append(pa.array(body.groups, type=pa.string()))
+        column_names.append(rule.group_column)
+    row_numbers = [y + 1 for y in body.rows]
+    for x, name in enumerate(names):
+        texts = [row[x] for row in body.texts]
+        typed = convert_column(name, texts, rule.column(name), rule, row_numbers)
+        columns.append(typed.values)
+        column_names.append(name)
+        own = rule.column(name)
+        if typed.markers is not None and own is not None and own.markers_to:
+            columns.append(typed.markers)
+            column_names.append(own.markers_to)
+        for derived in rule.columns:
+            if derived.link_of == name:
+                columns.append(_links(grid, body.rows, x, derived, base_url))
+                column_names.append(derived.name)
+    missing_keys = [key for key in rule.key if key not in column_names]
+    if missing_keys:
+        raise ExtractError(
+            f"{where}: key column(s) {', '.join(missing_keys)} not in the table",
+            hint=f"the columns are: {', '.join(column_names)}",
+        )
+    return ExtractedTable(
+        name=rule.name,
+        table=pa.Table.from_arrays(columns, names=column_names),
+        source_rows=tuple(body.rows),
+        selector=rule.select,
+        index=located.index,
+        in_comment=located.in_comment,
+        caption=grid.caption,
+        overlaps=len(grid.overlaps),
+    )
+
+
+def _check_column_rules(rule: TableRule, names: Sequence[str], where: str) -> None:
+    known = set(names)
+    for column in rule.columns:
+        source = column.link_of or column.name
+        if source not in known:
+            what = f"link_of = {source!r}" if column.link_of else "a rule"
+            raise ExtractError(
+                f"{where}: column {column.name!r} has {what} but the table has no column {source!r}",
+                hint=f"the columns are: {', '.join(names)}",
+            )
+        added = [column.name] if column.link_of else []
+        if column.markers_to:
+            added.append(column.markers_to)
+        for new_name in added:
+            if new_name in known:
+                raise ExtractError(
+                    f"{where}: new column {new_name!r} clashes with an existing column",
+                    hint="choose another name",
+                )
+            known.add(new_name)
+    if rule.group_rows == "column" and rule.group_column in known:
+        raise ExtractError(
+            f"{where}: group_column {rule.group_column!r} clashes with an existing column",
+            hint="set group_column to another name",
+        )
+
+
+def _body_rows(grid: Grid, header_rows: Sequence[int], rule: TableRule) -> _Body:
+    header_set = set(header_rows)
+    header_texts = {grid.row_texts(y) for y in header_rows} if rule.drop_repeated_headers else set()
+    body = _Body([], [], [])
+    group: str | None = None
+    for y in range(grid.height):
+        if y in header_set:
+            continue
+        texts = grid.row_texts(y)
+        if texts in header_texts:
+            continue
+        if rule.group_rows != "keep" and is_group_label_row(grid, y):
+            group = texts[0]
+            continue
+        if rule.drop_empty_rows and not any(texts):
+            continue
+        body.rows.append(y)
+        body.texts.append(texts)
+        body.groups.append(group)
+    return body
+
+
+def _apply_row_drops(body: _Body, names: Sequence[str], rule: TableRule, where: str) -> _Body:
+    if not rule.drop_rows:
+        return body
+    tests: list[tuple[int, re.Pattern[str]]] = []
+    for drop in rule.drop_rows:
+        if drop.column not in names:
+            raise ExtractError(
+                f"{where}: drop_rows names column {drop.column!r} that the table does not have",
+                hint=f"the columns are: {', '.join(names)}",
+            )
+        tests.append((names.index(drop.column), re.compile(drop.matches)))
+    kept = _Body([], [], [])
+    for y, texts, group in zip(body.rows, body.texts, body.groups, strict=True):
+        if any(pattern.fullmatch(texts[x]) for x, pattern in tests):
+            continue
+        kept.rows.append(y)
+        kept.texts.append(texts)
+        kept.groups.append(group)
+    return kept
+
+
+def _links(
+    grid: Grid, rows: Sequence[int], x: int, rule: ColumnRule, base_url: str | None
+) -> pa.Array:
+    pattern = re.compile(rule.pattern) if rule.pattern else None
+    values: list[str | None] = []
+    for y in rows:
+        cell = grid.rows[y][x]
+        href = cell.link() if cell is not None else None
+        if href is not None and base_url:
+            href = urljoin(base_url, href)
+        if href is not None and pattern is not None:
+            match = pattern.search(href)
+            href = (match.group(1) if match.groups() else match.group(0)) if match else None
+        values.append(href)
+    return pa.array(values, type=pa.string())
