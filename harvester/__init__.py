@@ -2,6 +2,34 @@
 
 from __future__ import annotations
 
+from harvester.errors import (
+    ExtractError,
+    FetchError,
+    HarvesterError,
+    RecipeError,
+    StoreError,
+    TableNotFoundError,
+    ValueParseError,
+)
+from harvester.extract.rules import ColumnRule, RowDrop, TableRule
+from harvester.extract.table import ExtractedTable, extract_grid, extract_table, read_page
+
 __version__ = "0.1.0.dev0"
 
-__all__ = ["__version__"]
+__all__ = [
+    "ColumnRule",
+    "ExtractError",
+    "ExtractedTable",
+    "FetchError",
+    "HarvesterError",
+    "RecipeError",
+    "RowDrop",
+    "StoreError",
+    "TableNotFoundError",
+    "TableRule",
+    "ValueParseError",
+    "__version__",
+    "extract_grid",
+    "extract_table",
+    "read_page",
+]

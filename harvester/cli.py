@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import dataclasses
 import sys
-from enum import Enum
+from enum import StrEnum
 from pathlib import Path
 from typing import Annotated, NoReturn
 
@@ -41,14 +41,19 @@ not readable as asked."""
 
 app = typer.Typer(
     name="harvester",
-    help=f"A polite, cached web-table harvester with a snapshot archive.\n\n{CAUTION}\n\n{EXIT_CODES}",
+    help=(
+        f"A polite, cached web-table harvester with a snapshot archive.\n\n{CAUTION}\n\n"
+        f"{EXIT_CODES}"
+    ),
     no_args_is_help=True,
     add_completion=False,
     pretty_exceptions_enable=False,
+    rich_markup_mode=None,
+    context_settings={"terminal_width": 100, "max_content_width": 100},
 )
 
 
-class OutputFormat(str, Enum):
+class OutputFormat(StrEnum):
     """How ``extract`` prints its result."""
 
     table = "table"
@@ -115,21 +120,20 @@ def _rule_for(
         _usage("--table needs --recipe — add --recipe RECIPE.toml")
     else:
         rule = TableRule()
-    changes: dict[str, object] = {}
-    if select is not None:
-        changes["select"] = select
-    if index is not None:
-        changes["index"] = index
-    if header_rows is not None:
-        changes["header_rows"] = header_rows
-    if drop_hidden:
-        changes["hidden"] = "drop"
-    return dataclasses.replace(rule, **changes) if changes else rule
+    return dataclasses.replace(
+        rule,
+        select=rule.select if select is None else select,
+        index=rule.index if index is None else index,
+        header_rows=rule.header_rows if header_rows is None else header_rows,
+        hidden="drop" if drop_hidden else rule.hidden,
+    )
 
 
 @app.command()
 def extract(
-    file: Annotated[str, typer.Argument(help="A saved HTML page, or - for standard input.")],
+    file: Annotated[
+        str, typer.Argument(metavar="FILE", help="A saved HTML page, or - for standard input.")
+    ],
     select: Annotated[
         str | None, typer.Option("--select", "-s", help="CSS selector naming the table.")
     ] = None,
@@ -146,7 +150,9 @@ def extract(
         OutputFormat | None,
         typer.Option("--format", "-f", help="table (default on a terminal), csv, json or parquet."),
     ] = None,
-    out: Annotated[Path | None, typer.Option("--out", "-o", help="File for --format parquet.")] = None,
+    out: Annotated[
+        Path | None, typer.Option("--out", "-o", help="File for --format parquet.")
+    ] = None,
     recipe: Annotated[
         Path | None, typer.Option("--recipe", help="Apply a recipe's table rule to the page.")
     ] = None,
@@ -195,6 +201,100 @@ def extract(
     else:
         rows = [list(row.values()) for row in table_rows(result.table)]
         table_to_rich(rows, result.table.column_names, sys.stdout, title=result.caption or "")
+
+
+class PlanFormat(StrEnum):
+    """How ``check`` prints the plan."""
+
+    text = "text"
+    json = "json"
+
+
+def _overrides(pairs: list[str] | None) -> dict[str, str]:
+    overrides: dict[str, str] = {}
+    for pair in pairs or []:
+        name, equals, value = pair.partition("=")
+        if not equals or not name.strip():
+            _usage(f"--set {pair!r} is not NAME=VALUE — write e.g. --set season=2024")
+        overrides[name.strip()] = value.strip()
+    return overrides
+
+
+@app.command()
+def check(
+    recipe: Annotated[Path, typer.Argument(metavar="RECIPE", help="A recipe file (TOML).")],
+    every_value: Annotated[
+        bool, typer.Option("--all", help="Plan every parameter value, not just the current one.")
+    ] = False,
+    set_values: Annotated[
+        list[str] | None,
+        typer.Option("--set", metavar="NAME=VALUE", help="Override site or a parameter."),
+    ] = None,
+    output_format: Annotated[
+        PlanFormat, typer.Option("--format", "-f", help="text or json.")
+    ] = PlanFormat.text,
+) -> None:
+    """Validate a recipe and print the pages and tables it would fetch, fetching nothing.
+
+    Example: harvester check recipes/league-players.toml --all
+    """
+    from harvester.recipe import load_recipe
+
+    try:
+        loaded = load_recipe(recipe, _overrides(set_values))
+        plan = loaded.plan(every_value=every_value)
+    except HarvesterError as error:
+        _fail(error)
+    if output_format is PlanFormat.json:
+        import json
+
+        pages = [
+            {"url": page.url, "parameters": dict(page.parameters), "tables": list(page.tables)}
+            for page in plan
+        ]
+        typer.echo(json.dumps({"recipe": loaded.name, "sha256": loaded.sha256, "pages": pages}))
+        return
+    tables = sum(len(page.tables) for page in plan)
+    typer.echo(
+        f"{recipe}: recipe {loaded.name!r} is valid — {len(plan)} page(s), {tables} table(s)"
+    )
+    for page in plan:
+        typer.echo(f"{page.url}\t{', '.join(page.tables)}")
+
+
+@app.command()
+def demo(
+    season: Annotated[
+        int | None, typer.Option("--season", help="Season to show (default: the current one).")
+    ] = None,
+    rows: Annotated[int, typer.Option("--rows", help="Rows to show per table.")] = 8,
+    write_site: Annotated[
+        Path | None,
+        typer.Option("--write-site", metavar="DIR", help="Write the demo pages to DIR and stop."),
+    ] = None,
+) -> None:
+    """Show what the demo recipes read from the invented league's pages.
+
+    Example: harvester demo --season 2024
+    """
+    from harvester.demo.tour import run_tour, write_demo_site
+
+    try:
+        if write_site is not None:
+            written = write_demo_site(write_site)
+            typer.echo(f"wrote {len(written)} pages of the demo site under {write_site}")
+            return
+        stops = run_tour(season)
+    except HarvesterError as error:
+        _fail(error)
+    for stop in stops:
+        table = stop.result.table
+        title = (
+            f"{stop.recipe} · {stop.result.name} ({stop.result.selector}) from {stop.path} — "
+            f"{table.num_rows} rows × {table.num_columns} columns"
+        )
+        shown = [list(row.values()) for row in table_rows(table.slice(0, rows))]
+        table_to_rich(shown, table.column_names, sys.stdout, title=title)
 
 
 def main() -> None:

@@ -14,10 +14,16 @@ import re
 
 __all__ = ["decode_html", "sniff_encoding"]
 
-_BOMS = ((codecs.BOM_UTF8, "utf-8"), (codecs.BOM_UTF16_LE, "utf-16-le"), (codecs.BOM_UTF16_BE, "utf-16-be"))
+_BOMS = (
+    (codecs.BOM_UTF8, "utf-8"),
+    (codecs.BOM_UTF16_LE, "utf-16-le"),
+    (codecs.BOM_UTF16_BE, "utf-16-be"),
+)
 _META_CHARSET = re.compile(rb"<meta[^>]+charset\s*=\s*[\"']?\s*([A-Za-z0-9._:-]+)", re.I)
 # Encoding Standard §4.2: these labels all mean windows-1252.
-_WINDOWS_1252_LABELS = frozenset({"iso-8859-1", "iso8859-1", "latin1", "latin-1", "us-ascii", "ascii"})
+_WINDOWS_1252_LABELS = frozenset(
+    {"iso-8859-1", "iso8859-1", "latin1", "latin-1", "us-ascii", "ascii"}
+)
 
 
 def _normalise(label: str | None) -> str | None:

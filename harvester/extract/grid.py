@@ -13,8 +13,8 @@ cannot extend beyond the last row box of its row group), and it stops one attrib
 
 from __future__ import annotations
 
+import gc
 import re
-from collections.abc import Iterator
 from dataclasses import dataclass, field
 
 from selectolax.lexbor import LexborNode
@@ -27,6 +27,7 @@ __all__ = [
     "build_grid",
     "cell_text",
     "is_hidden",
+    "link_of",
     "parse_span",
 ]
 
@@ -58,36 +59,109 @@ class Cell:
 
     def link(self) -> str | None:
         """The ``href`` of the first link inside the cell, if any."""
-        anchor = self.node.css_first("a[href]")
-        if anchor is None:
-            return None
-        href = anchor.attributes.get("href")
-        return href.strip() if href else None
+        return link_of(self.node)
 
 
-@dataclass(slots=True)
+def link_of(node: LexborNode) -> str | None:
+    """The ``href`` of the first link inside an element, if any."""
+    anchor = node.css_first("a[href]")
+    if anchor is None:
+        return None
+    href = anchor.attributes.get("href")
+    return href.strip() if href else None
+
+
 class Grid:
-    """A table's slots: ``rows[y][x]`` is the cell covering slot (x, y), or None."""
+    """A table's slots, stored as parallel matrices so that large tables stay cheap.
 
-    rows: list[list[Cell | None]]
-    width: int
-    row_groups: list[str]  # "thead", "tbody", "tfoot" or "" (a tr directly under table)
-    row_nodes: list[LexborNode]
-    caption: str | None = None
-    overlaps: list[tuple[int, int]] = field(default_factory=list)
+    ``text_rows[y][x]`` is the text of the cell covering slot (x, y) ("" where no cell does);
+    ``headers[y][x]`` says whether that cell is a ``th``; ``nodes[y][x]`` is its element, or
+    None where no cell covers the slot. Slots covered by a spanning cell map to the cell's
+    anchor (top-left) slot in ``owners``. ``rows`` gives the same grid as Cell objects.
+    """
+
+    __slots__ = (
+        "_cells",
+        "caption",
+        "headers",
+        "nodes",
+        "overlaps",
+        "owners",
+        "row_groups",
+        "row_nodes",
+        "spans",
+        "text_rows",
+        "width",
+    )
+
+    def __init__(self, row_groups: list[str], row_nodes: list[LexborNode]) -> None:
+        self.text_rows: list[list[str]] = []
+        self.headers: list[list[bool]] = []
+        self.nodes: list[list[LexborNode | None]] = []
+        self.owners: dict[tuple[int, int], tuple[int, int]] = {}
+        self.spans: dict[tuple[int, int], tuple[int, int]] = {}  # anchor → (width, height)
+        self.width = 0
+        self.row_groups = row_groups  # "thead", "tbody", "tfoot" or "" (tr directly in table)
+        self.row_nodes = row_nodes
+        self.caption: str | None = None
+        self.overlaps: list[tuple[int, int]] = []
+        self._cells: list[list[Cell | None]] | None = None
 
     @property
     def height(self) -> int:
         """Number of rows in the grid."""
-        return len(self.rows)
+        return len(self.text_rows)
+
+    def owner(self, x: int, y: int) -> tuple[int, int] | None:
+        """The anchor slot of the cell covering (x, y), or None if no cell covers it."""
+        if self.nodes[y][x] is None:
+            return None
+        return self.owners.get((x, y), (x, y))
 
     def texts(self) -> list[list[str]]:
         """Every slot's text, a spanning cell's text repeated in each slot it covers."""
-        return [[cell.text if cell is not None else "" for cell in row] for row in self.rows]
+        return [list(row) for row in self.text_rows]
 
     def row_texts(self, y: int) -> tuple[str, ...]:
         """The texts of row ``y``, slot by slot."""
-        return tuple(cell.text if cell is not None else "" for cell in self.rows[y])
+        return tuple(self.text_rows[y])
+
+    def link(self, x: int, y: int) -> str | None:
+        """The link target inside the cell covering (x, y), if any."""
+        node = self.nodes[y][x]
+        return link_of(node) if node is not None else None
+
+    @property
+    def rows(self) -> list[list[Cell | None]]:
+        """The grid as Cell objects; a spanning cell is the same object in every slot it covers."""
+        if self._cells is None:
+            made: dict[tuple[int, int], Cell] = {}
+            cells: list[list[Cell | None]] = []
+            for y, nodes in enumerate(self.nodes):
+                row: list[Cell | None] = []
+                for x, node in enumerate(nodes):
+                    if node is None:
+                        row.append(None)
+                        continue
+                    anchor = self.owners.get((x, y), (x, y))
+                    cell = made.get(anchor)
+                    if cell is None:
+                        ax, ay = anchor
+                        width, height = self.spans.get(anchor, (1, 1))
+                        cell = Cell(
+                            self.text_rows[ay][ax],
+                            self.headers[ay][ax],
+                            ax,
+                            ay,
+                            width,
+                            height,
+                            node,
+                        )
+                        made[anchor] = cell
+                    row.append(cell)
+                cells.append(row)
+            self._cells = cells
+        return self._cells
 
 
 def parse_span(value: str | None, default: int, minimum: int, maximum: int) -> int:
@@ -151,8 +225,19 @@ def build_grid(table: LexborNode, *, drop_hidden: bool = False) -> Grid:
     With ``drop_hidden``, rows and cells hidden by inline ``display: none`` (or ``hidden``)
     are left out before the grid is formed, as a browser leaves them out of its layout.
     """
-    builder = _GridBuilder(table, drop_hidden)
-    return builder.build()
+    # Pausing the cyclic garbage collector while a large grid fills up roughly halves the
+    # time: the collector would otherwise walk every new list again and again.
+    collecting = gc.isenabled()
+    gc.disable()
+    try:
+        return _GridBuilder(table, drop_hidden).build()
+    finally:
+        if collecting:
+            gc.enable()
+
+
+def _parents(nodes: list[LexborNode]) -> set[int]:
+    return {parent.mem_id for node in nodes if (parent := node.parent) is not None}
 
 
 class _GridBuilder:
@@ -161,36 +246,40 @@ class _GridBuilder:
     def __init__(self, table: LexborNode, drop_hidden: bool) -> None:
         self.table = table
         self.drop_hidden = drop_hidden
-        self.rows: list[list[Cell | None]] = []
-        self.row_groups: list[str] = []
-        self.row_nodes: list[LexborNode] = []
-        self.width = 0
-        self.overlaps: list[tuple[int, int]] = []
-        # Looked up once for the whole table, so that the common cell (no spans, plain
-        # text) costs no attribute parsing and no tree walk.
-        self.spanning = {
-            node.mem_id for node in table.css("td[colspan], th[colspan], td[rowspan], th[rowspan]")
-        }
-        self.complex = self._cells_containing(table.css(_COMPLEX_SELECTOR))
+        self.grid = Grid([], [])
+        # Looked up once for the whole table, so that a plain row (td cells only, no spans,
+        # plain text) is read with one list comprehension and no per-cell checks.
+        spanning_nodes = table.css("td[colspan], th[colspan], td[rowspan], th[rowspan]")
+        self.spanning = {node.mem_id for node in spanning_nodes}
+        complex_cells = self._cells_containing(table.css(_COMPLEX_SELECTOR))
+        hidden_cells: list[LexborNode] = []
         self.hidden: set[int] = set()
         if drop_hidden:
             hidden_nodes = [node for node in table.css("[style], [hidden]") if is_hidden(node)]
             self.hidden = {node.mem_id for node in hidden_nodes}
-            self.complex |= self._cells_containing(hidden_nodes)
+            hidden_cells = self._cells_containing(hidden_nodes)
+        self.complex = {node.mem_id for node in complex_cells + hidden_cells}
+        odd_children = table.css("tr > :not(td):not(th)" if not drop_hidden else "tr > *")
+        self.careful_rows = (
+            _parents(spanning_nodes)
+            | _parents(complex_cells + hidden_cells)
+            | _parents(table.css("th"))
+            | _parents(odd_children)
+        )
 
     def build(self) -> Grid:
-        caption: str | None = None
+        grid = self.grid
         groups: list[tuple[str, list[LexborNode]]] = []
         footers: list[tuple[str, list[LexborNode]]] = []
         bare_rows: list[LexborNode] = []
         seen_rows = False
         for child in self.table.iter():
             tag = child.tag
-            if tag == "caption" and caption is None:
-                caption = cell_text(child)
+            if tag == "caption" and grid.caption is None:
+                grid.caption = cell_text(child)
             elif tag == "colgroup" and not seen_rows:
                 # §4.9.12.1: only column groups before the first row or row group count.
-                self.width += self._colgroup_width(child)
+                grid.width += self._colgroup_width(child)
             elif tag == "tr":
                 seen_rows = True
                 bare_rows.append(child)
@@ -205,28 +294,25 @@ class _GridBuilder:
             groups.append(("", bare_rows))
         for kind, rows in groups + footers:  # §4.9.12.1: every tfoot is processed last
             self._process_row_group(kind, rows)
-        for row in self.rows:
-            if len(row) < self.width:
-                row.extend([None] * (self.width - len(row)))
-        return Grid(
-            rows=self.rows,
-            width=self.width,
-            row_groups=self.row_groups,
-            row_nodes=self.row_nodes,
-            caption=caption,
-            overlaps=self.overlaps,
-        )
+        width = grid.width
+        for texts, headers, nodes in zip(grid.text_rows, grid.headers, grid.nodes, strict=True):
+            missing = width - len(texts)
+            if missing > 0:
+                texts.extend([""] * missing)
+                headers.extend([False] * missing)
+                nodes.extend([None] * missing)
+        return grid
 
-    def _cells_containing(self, nodes: list[LexborNode]) -> set[int]:
-        """The mem_ids of the cells (of any table) that contain one of ``nodes``."""
-        found: set[int] = set()
+    def _cells_containing(self, nodes: list[LexborNode]) -> list[LexborNode]:
+        """The cells (of any table) that contain one of ``nodes``."""
+        found: dict[int, LexborNode] = {}
         for node in nodes:
             parent = node.parent
             while parent is not None and parent.tag not in _CELL_TAGS:
                 parent = parent.parent
             if parent is not None:
-                found.add(parent.mem_id)
-        return found
+                found[parent.mem_id] = parent
+        return list(found.values())
 
     def _colgroup_width(self, colgroup: LexborNode) -> int:
         cols = [col for col in colgroup.iter() if col.tag == "col"]
@@ -234,74 +320,84 @@ class _GridBuilder:
             return parse_span(colgroup.attributes.get("span"), 1, 1, MAX_COL_SPAN_ATTR)
         return sum(parse_span(col.attributes.get("span"), 1, 1, MAX_COL_SPAN_ATTR) for col in cols)
 
-    def _visible(self, nodes: Iterator[LexborNode] | list[LexborNode]) -> list[LexborNode]:
-        if not self.hidden:
-            return list(nodes)
-        return [node for node in nodes if node.mem_id not in self.hidden]
-
     def _process_row_group(self, kind: str, rows: list[LexborNode]) -> None:
-        rows = self._visible(rows)
-        group_end = len(self.row_nodes) + len(rows)
+        grid = self.grid
+        if self.hidden:
+            rows = [row for row in rows if row.mem_id not in self.hidden]
+        group_end = len(grid.row_nodes) + len(rows)
         for tr in rows:
-            y = len(self.row_nodes)
-            if y == len(self.rows):  # rows below may already exist, made by a rowspan above
-                self.rows.append([])
-            self.row_groups.append(kind)
-            self.row_nodes.append(tr)
+            y = len(grid.row_nodes)
+            grid.row_groups.append(kind)
+            grid.row_nodes.append(tr)
+            if y == len(grid.text_rows):
+                if tr.mem_id not in self.careful_rows:
+                    # A plain row: td cells only, no spans, no slot taken from above.
+                    cells = list(tr.iter())
+                    grid.text_rows.append([" ".join(cell.text_lexbor().split()) for cell in cells])
+                    grid.headers.append([False] * len(cells))
+                    grid.nodes.append(cells)  # type: ignore[arg-type]
+                    if len(cells) > grid.width:
+                        grid.width = len(cells)
+                    continue
+                grid.text_rows.append([])
+                grid.headers.append([])
+                grid.nodes.append([])
             cells = [cell for cell in tr.iter() if cell.tag in _CELL_TAGS]
-            self._process_row(y, self._visible(cells), group_end)
+            if self.hidden:
+                cells = [cell for cell in cells if cell.mem_id not in self.hidden]
+            self._process_row(y, cells, group_end)
 
     def _process_row(self, y: int, cells: list[LexborNode], group_end: int) -> None:
-        row = self.rows[y]
+        grid = self.grid
+        nodes = grid.nodes[y]
         x = 0
         for node in cells:
-            while x < len(row) and row[x] is not None:
+            while x < len(nodes) and nodes[x] is not None:
                 x += 1
             width = height = 1
-            if node.mem_id in self.spanning:
+            mem_id = node.mem_id
+            if mem_id in self.spanning:
                 attributes = node.attributes
                 width = parse_span(attributes.get("colspan"), 1, 1, MAX_COLSPAN)
                 rowspan = parse_span(attributes.get("rowspan"), 1, 0, MAX_ROWSPAN)
                 # rowspan 0 grows to the end of the row group; longer spans are cut there.
                 height = group_end - y if rowspan == 0 else min(rowspan, group_end - y)
-            if node.mem_id in self.complex:
+            if mem_id in self.complex:
                 text = cell_text(node, drop_hidden=self.drop_hidden)
             else:
                 text = " ".join(node.text_lexbor().split())
-            cell = Cell(text, node.tag == "th", x, y, width, height, node)
-            if width == 1 and height == 1:
-                self._place_single(row, x, cell)
-            else:
-                self._place(cell)
+            self._place(node, text, node.tag == "th", x, y, width, height)
             x += width
-            if x > self.width:
-                self.width = x
+            if x > grid.width:
+                grid.width = x
 
-    def _place_single(self, row: list[Cell | None], x: int, cell: Cell) -> None:
-        if x == len(row):
-            row.append(cell)
-            return
-        if x > len(row):
-            row.extend([None] * (x - len(row)))
-            row.append(cell)
-            return
-        if row[x] is None:
-            row[x] = cell
-        else:
-            self.overlaps.append((x, cell.y))
-
-    def _place(self, cell: Cell) -> None:
-        for y in range(cell.y, cell.y + cell.height):
-            while len(self.rows) <= y:
-                self.rows.append([])
-            row = self.rows[y]
-            end = cell.x + cell.width
-            if len(row) < end:
-                row.extend([None] * (end - len(row)))
-            for x in range(cell.x, end):
-                if row[x] is None:
-                    row[x] = cell
-                else:
+    def _place(
+        self, node: LexborNode, text: str, header: bool, x: int, y: int, width: int, height: int
+    ) -> None:
+        grid = self.grid
+        spanning = width > 1 or height > 1
+        if spanning:
+            grid.spans[(x, y)] = (width, height)
+        end = x + width
+        for row_y in range(y, y + height):
+            while len(grid.text_rows) <= row_y:
+                grid.text_rows.append([])
+                grid.headers.append([])
+                grid.nodes.append([])
+            texts, headers, nodes = grid.text_rows[row_y], grid.headers[row_y], grid.nodes[row_y]
+            missing = end - len(nodes)
+            if missing > 0:
+                texts.extend([""] * missing)
+                headers.extend([False] * missing)
+                nodes.extend([None] * missing)
+            for slot_x in range(x, end):
+                if nodes[slot_x] is not None:
                     # §4.9.12.1: "those slots now have two cells overlapping" — the cell
                     # placed first keeps the slot.
-                    self.overlaps.append((x, y))
+                    grid.overlaps.append((slot_x, row_y))
+                    continue
+                texts[slot_x] = text
+                headers[slot_x] = header
+                nodes[slot_x] = node
+                if spanning:
+                    grid.owners[(slot_x, row_y)] = (x, y)

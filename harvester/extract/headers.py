@@ -40,9 +40,13 @@ def header_row_indices(grid: Grid, header_rows: int | None = None) -> list[int]:
     if thead:
         return thead
     leading: list[int] = []
-    for y, row in enumerate(grid.rows):
-        cells = [cell for cell in row if cell is not None]
-        if not cells or not all(cell.header for cell in cells):
+    for y in range(grid.height):
+        flags = [
+            header
+            for header, node in zip(grid.headers[y], grid.nodes[y], strict=True)
+            if node is not None
+        ]
+        if not flags or not all(flags):
             break
         if leading and is_group_label_row(grid, y):
             break  # a full-width label such as a conference name starts the body
@@ -65,11 +69,11 @@ def collapse_headers(grid: Grid, rows: Sequence[int], separator: str = "_") -> l
         parts: list[str] = []
         above = None
         for y in rows:
-            cell = grid.rows[y][x]
-            if cell is None or cell is above:
+            owner = grid.owner(x, y)
+            if owner is None or owner == above:
                 continue
-            above = cell
-            part = snake_case(cell.text)
+            above = owner
+            part = snake_case(grid.text_rows[y][x])
             if part and (not parts or parts[-1] != part):
                 parts.append(part)
         names.append(separator.join(parts) or f"column_{x + 1}")
@@ -119,8 +123,7 @@ def rename_columns(
 
 def is_group_label_row(grid: Grid, y: int) -> bool:
     """True if one non-empty cell spans the whole row (a label such as a conference name)."""
-    row = grid.rows[y]
-    if grid.width < 2 or not row:
+    if grid.width < 2 or not grid.text_rows[y][0]:
         return False
-    first = row[0]
-    return first is not None and bool(first.text) and all(cell is first for cell in row)
+    first = grid.owner(0, y)
+    return first is not None and all(grid.owner(x, y) == first for x in range(1, grid.width))

@@ -142,7 +142,8 @@ def _check_column_rules(rule: TableRule, names: Sequence[str], where: str) -> No
         if source not in known:
             what = f"link_of = {source!r}" if column.link_of else "a rule"
             raise ExtractError(
-                f"{where}: column {column.name!r} has {what} but the table has no column {source!r}",
+                f"{where}: column {column.name!r} has {what} "
+                f"but the table has no column {source!r}",
                 hint=f"the columns are: {', '.join(names)}",
             )
         added = [column.name] if column.link_of else []
@@ -211,8 +212,7 @@ def _links(
     pattern = re.compile(rule.pattern) if rule.pattern else None
     values: list[str | None] = []
     for y in rows:
-        cell = grid.rows[y][x]
-        href = cell.link() if cell is not None else None
+        href = grid.link(x, y)
         if href is not None and base_url:
             href = urljoin(base_url, href)
         if href is not None and pattern is not None:

@@ -1,0 +1,159 @@
+"""Extraction benchmark: our extractor against pandas.read_html and bare lexbor parsing.
+
+Builds one large page (5,000 body rows × 26 columns, a two-row header repeated every 20 body
+rows, about 2 MB) and times, as the median of several repeats in this one run:
+  (a) bare lexbor parse of the bytes (selectolax.lexbor.LexborHTMLParser),
+  (b) our extraction to a typed Arrow table with collapsed headers (harvester.extract_table),
+  (c) pandas.read_html(flavor="lxml") on the same text.
+It prints c/b (aim >= 8) and b/a (aim <= 2.5), and the peak resident memory of (b) measured in
+a fresh child process, as a multiple of the page size.
+
+Usage: .venv/bin/python bench/extract_bench.py [--rows 5000] [--repeats 5]
+"""
+
+from __future__ import annotations
+
+import argparse
+import io
+import random
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+from collections.abc import Callable
+
+GROUPS = (
+    ("Shooting", ("Goals", "Shots", "Pct")),
+    ("7m", ("Goals", "Shots", "Pct")),
+    ("Wings", ("Goals", "Shots")),
+    ("Back court", ("Goals", "Shots")),
+    ("Pivot", ("Goals", "Shots")),
+    ("Fast break", ("Goals", "Shots")),
+    ("Defence", ("Blocks", "Steals", "Turnovers")),
+    ("Discipline", ("Warnings", "Suspensions", "Red cards")),
+)
+SINGLE = ("Player", "Club", "Pos", "GP", "Min", "Ast")
+
+
+def build_page(rows: int, seed: int = 11) -> str:
+    """A deterministic page in the shape of the demo league's player table, but large."""
+    rng = random.Random(seed)
+    head1 = "".join(f'<th rowspan="2">{name}</th>' for name in SINGLE[:5])
+    head1 += "".join(f'<th colspan="{len(subs)}">{group}</th>' for group, subs in GROUPS)
+    head1 += f'<th rowspan="2">{SINGLE[5]}</th>'
+    head2 = "".join(f"<th>{sub}</th>" for _, subs in GROUPS for sub in subs)
+    header = f"<tr>{head1}</tr><tr>{head2}</tr>"
+    repeat = f'<tr class="over-header">{head1}</tr><tr class="over-header">{head2}</tr>'
+    body: list[str] = []
+    for i in range(rows):
+        if i and i % 20 == 0:
+            body.append(repeat)
+        marker = "*" if rng.random() < 0.08 else ""
+        cells = [
+            f'<td><a href="/players/p{i:05d}.html">Player {i}</a>{marker}</td>',
+            f"<td>C{rng.randrange(10):02d}</td>",
+            f"<td>{rng.choice(('GK', 'LW', 'RW', 'LB', 'CB', 'RB', 'PV'))}</td>",
+            f"<td>{rng.randrange(1, 40)}</td>",
+            f"<td>{rng.randrange(0, 2400)}:{rng.randrange(60):02d}</td>",
+        ]
+        for _, subs in GROUPS:
+            for sub in subs:
+                if sub == "Pct":
+                    value = "—" if rng.random() < 0.05 else f"{rng.uniform(0, 100):.1f}%"
+                else:
+                    value = f"{rng.randrange(0, 3000):,}"
+                cells.append(f"<td>{value}</td>")
+        cells.append(f"<td>{rng.randrange(0, 200)}</td>")
+        body.append("<tr>" + "".join(cells) + "</tr>")
+    return (
+        '<!DOCTYPE html><html><head><meta charset="utf-8"><title>bench</title></head><body>'
+        f'<table id="players"><thead>{header}</thead><tbody>{"".join(body)}</tbody></table>'
+        "</body></html>"
+    )
+
+
+def read_with_pandas(html: str) -> list[object]:
+    """The reference: pandas.read_html with lxml, both header rows as a MultiIndex."""
+    import pandas as pd
+
+    frames: list[object] = pd.read_html(
+        io.StringIO(html), flavor="lxml", attrs={"id": "players"}, header=[0, 1]
+    )
+    return frames
+
+
+def median_seconds(action: Callable[[], object], repeats: int) -> float:
+    """Median wall time of ``repeats`` runs of ``action`` (after one warm-up run)."""
+    action()
+    times = []
+    for _ in range(repeats):
+        start = time.perf_counter()
+        action()
+        times.append(time.perf_counter() - start)
+    return statistics.median(times)
+
+
+_PEAK_SCRIPT = """
+import resource, sys
+from harvester import TableRule, extract_table
+data = open(sys.argv[1], "rb").read()
+before = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+extract_table(data, TableRule(select="table#players", header_rows=2))
+after = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+print(before, after)
+"""
+
+
+def peak_memory_kib(data: bytes) -> tuple[int, int]:
+    """Peak RSS (KiB) before and after one extraction of ``data``, in a fresh process."""
+    with tempfile.NamedTemporaryFile(suffix=".html") as page:
+        page.write(data)
+        page.flush()
+        out = subprocess.run(
+            [sys.executable, "-c", _PEAK_SCRIPT, page.name],
+            capture_output=True,
+            text=True,
+            check=True,
+        )
+    before, after = out.stdout.split()
+    return int(before), int(after)
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--rows", type=int, default=5000)
+    parser.add_argument("--repeats", type=int, default=5)
+    args = parser.parse_args()
+
+    from selectolax.lexbor import LexborHTMLParser
+
+    from harvester import TableRule, extract_table
+
+    html = build_page(args.rows)
+    data = html.encode()
+    rule = TableRule(select="table#players", header_rows=2)
+    result = extract_table(html, rule)
+    frames = read_with_pandas(html)
+    print(
+        f"page: {len(data) / 1e6:.2f} MB, {args.rows} body rows, {result.table.num_columns} columns"
+    )
+    print(f"ours: {result.table.num_rows} rows; pandas.read_html: {len(frames[0])} rows")  # type: ignore[arg-type]
+
+    parse = median_seconds(lambda: LexborHTMLParser(data), args.repeats)
+    ours = median_seconds(lambda: extract_table(html, rule), args.repeats)
+    reference = median_seconds(lambda: read_with_pandas(html), max(1, args.repeats // 2))
+    before, after = peak_memory_kib(data)
+    print(f"(a) bare lexbor parse      {parse * 1000:9.1f} ms")
+    print(f"(b) harvester extraction   {ours * 1000:9.1f} ms")
+    print(f"(c) pandas.read_html(lxml) {reference * 1000:9.1f} ms")
+    print(f"c/b = {reference / ours:.1f}   (aim >= 8)")
+    print(f"b/a = {ours / parse:.2f}   (aim <= 2.5)")
+    print(
+        f"peak RSS: {after / 1024:.0f} MiB after extraction, {before / 1024:.0f} MiB before "
+        f"(page loaded); growth / page size = {(after - before) * 1024 / len(data):.1f}"
+    )
+
+
+if __name__ == "__main__":
+    main()
