@@ -19,11 +19,45 @@ _BOMS = (
     (codecs.BOM_UTF16_LE, "utf-16-le"),
     (codecs.BOM_UTF16_BE, "utf-16-be"),
 )
-_META_CHARSET = re.compile(rb"<meta[^>]+charset\s*=\s*[\"']?\s*([A-Za-z0-9._:-]+)", re.I)
-# Encoding Standard §4.2: these labels all mean windows-1252.
+# Comments and meta tags in the first 1024 bytes, in order (HTML §13.2.3.2 prescan, in brief).
+_PRESCAN_TOKEN = re.compile(rb"<!--.*?-->|<meta[\s/][^>]*>", re.I | re.S)
+_ATTRIBUTE = re.compile(rb"""([^\s=/>]+)\s*(?:=\s*("[^"]*"|'[^']*'|[^\s>]+))?""")
+_CHARSET_IN_CONTENT = re.compile(rb"""charset\s*=\s*["']?([^\s"';]+)""", re.I)
+# Encoding Standard §4.2 ("Names and labels"): every label of windows-1252. Python's codec
+# registry disagrees on several (it reads "l1" as Latin-1 and "ascii" as ASCII), so we map
+# them ourselves.
 _WINDOWS_1252_LABELS = frozenset(
-    {"iso-8859-1", "iso8859-1", "latin1", "latin-1", "us-ascii", "ascii"}
+    {
+        "ansi_x3.4-1968",
+        "ascii",
+        "cp1252",
+        "cp819",
+        "csisolatin1",
+        "ibm819",
+        "iso-8859-1",
+        "iso-ir-100",
+        "iso8859-1",
+        "iso88591",
+        "iso_8859-1",
+        "iso_8859-1:1987",
+        "l1",
+        "latin1",
+        "us-ascii",
+        "windows-1252",
+        "x-cp1252",
+    }
 )
+_WINDOWS_1252 = "harvester-windows-1252"
+
+
+def _c1_passthrough(error: UnicodeError) -> tuple[str, int]:
+    # Encoding Standard, index windows-1252: the five bytes Python's cp1252 leaves undefined
+    # (0x81, 0x8D, 0x8F, 0x90, 0x9D) map to the C1 control with the same number.
+    assert isinstance(error, UnicodeDecodeError)
+    return chr(error.object[error.start]), error.start + 1
+
+
+codecs.register_error(_WINDOWS_1252, _c1_passthrough)
 
 
 def _normalise(label: str | None) -> str | None:
@@ -31,7 +65,7 @@ def _normalise(label: str | None) -> str | None:
         return None
     label = label.strip().lower()
     if label in _WINDOWS_1252_LABELS:
-        return "cp1252"
+        return "windows-1252"
     try:
         return codecs.lookup(label).name
     except LookupError:
@@ -46,19 +80,35 @@ def sniff_encoding(data: bytes, declared: str | None = None) -> tuple[str, bool]
     from_transport = _normalise(declared)
     if from_transport:
         return from_transport, False
-    match = _META_CHARSET.search(data[:1024])
-    if match:
-        from_meta = _normalise(match.group(1).decode("ascii", "replace"))
+    from_meta = _prescan(data[:1024])
+    if from_meta:
         # §13.2.3.2: a meta naming UTF-16 means UTF-8 (the bytes were already ASCII-compatible).
-        if from_meta and from_meta.startswith("utf-16"):
-            return "utf-8", False
-        if from_meta:
-            return from_meta, False
+        return ("utf-8" if from_meta.startswith("utf-16") else from_meta), False
     try:
         data.decode("utf-8")
     except UnicodeDecodeError:
-        return "cp1252", False
+        return "windows-1252", False
     return "utf-8", False
+
+
+def _prescan(head: bytes) -> str | None:
+    """The encoding a ``<meta>`` declares, skipping comments (HTML §13.2.3.2, in brief)."""
+    for token in _PRESCAN_TOKEN.finditer(head):
+        if token.group(0).startswith(b"<!--"):
+            continue
+        attributes: dict[bytes, bytes] = {}
+        for name, value in _ATTRIBUTE.findall(token.group(0)[5:]):
+            attributes.setdefault(name.lower(), value.strip(b"\"'"))
+        label: bytes | None = attributes.get(b"charset")
+        if label is None and attributes.get(b"http-equiv", b"").lower() == b"content-type":
+            # The "need pragma" rule: content's charset counts only with http-equiv.
+            found = _CHARSET_IN_CONTENT.search(attributes.get(b"content", b""))
+            label = found.group(1) if found else None
+        if label is not None:
+            encoding = _normalise(label.decode("ascii", "replace"))
+            if encoding:
+                return encoding
+    return None
 
 
 def decode_html(data: bytes, declared: str | None = None) -> str:
@@ -66,4 +116,6 @@ def decode_html(data: bytes, declared: str | None = None) -> str:
     encoding, has_bom = sniff_encoding(data, declared)
     if has_bom:
         data = data[len(codecs.BOM_UTF8) if encoding == "utf-8" else 2 :]
+    if encoding == "windows-1252":
+        return data.decode("cp1252", errors=_WINDOWS_1252)
     return data.decode(encoding, errors="replace")

@@ -40,8 +40,14 @@ _CELL_TAGS = frozenset({"td", "th"})
 # Elements whose text is not part of a cell's text: nested tables belong to themselves,
 # and script/style/template hold no visible text.
 _SKIPPED_TAGS = frozenset({"table", "script", "style", "template"})
-_COMPLEX_SELECTOR = "br, table, script, style, template"
+_COMPLEX_TAGS = frozenset({"br", "table", "script", "style", "template"})
+_CAREFUL_SELECTOR = (
+    "th, td[colspan], td[rowspan], br, table, script, style, template, tr > :not(td)"
+)
 _DISPLAY_NONE = re.compile(r"display\s*:\s*none", re.IGNORECASE)
+# Whitespace that collapsing would change: any but a single space between two characters.
+# Texts are joined with NUL, which lexbor never leaves in text (it becomes U+FFFD).
+_UNTIDY_SPACE = re.compile(r"[^\S ]| {2}|^ | $| \0|\0 ")
 _LEADING_INT = re.compile(r"[\t\n\f\r ]*([+-]?)([0-9]+)")
 
 
@@ -177,7 +183,9 @@ def parse_span(value: str | None, default: int, minimum: int, maximum: int) -> i
     if match is None:
         return default
     sign, digits = match.groups()
-    number = int(digits)
+    digits = digits.lstrip("0") or "0"
+    # Python refuses int() on strings over 4,300 digits; anything this long is above maximum.
+    number = int(digits) if len(digits) <= 18 else maximum + 1
     if sign == "-" and number != 0:
         return default  # §2.3.4.2: a negative value is an error
     if number < minimum:
@@ -236,6 +244,13 @@ def build_grid(table: LexborNode, *, drop_hidden: bool = False) -> Grid:
             gc.enable()
 
 
+def _collapsed(texts: list[str]) -> list[str]:
+    """Collapse whitespace in each text, checking the whole row at once for the common case."""
+    if _UNTIDY_SPACE.search("\0".join(texts)) is None:
+        return texts
+    return [" ".join(text.split()) for text in texts]
+
+
 def _parents(nodes: list[LexborNode]) -> set[int]:
     return {parent.mem_id for node in nodes if (parent := node.parent) is not None}
 
@@ -247,25 +262,34 @@ class _GridBuilder:
         self.table = table
         self.drop_hidden = drop_hidden
         self.grid = Grid([], [])
-        # Looked up once for the whole table, so that a plain row (td cells only, no spans,
-        # plain text) is read with one list comprehension and no per-cell checks.
-        spanning_nodes = table.css("td[colspan], th[colspan], td[rowspan], th[rowspan]")
-        self.spanning = {node.mem_id for node in spanning_nodes}
-        complex_cells = self._cells_containing(table.css(_COMPLEX_SELECTOR))
-        hidden_cells: list[LexborNode] = []
+        self.growing: list[tuple[LexborNode, str, bool, int, int, int]] = []
+        # One selector pass over the whole table finds everything that needs care, so that a
+        # plain row (td cells only, no spans, plain text) is read with one comprehension.
+        spanning: list[LexborNode] = []
+        complex_parts: list[LexborNode] = []
+        careful_rows: set[int] = set()
+        for node in table.css(_CAREFUL_SELECTOR):
+            tag = node.tag
+            if tag in _CELL_TAGS:
+                attributes = node.attributes
+                if "colspan" in attributes or "rowspan" in attributes:
+                    spanning.append(node)
+                if tag == "th" and (parent := node.parent) is not None:
+                    careful_rows.add(parent.mem_id)
+            elif tag in _COMPLEX_TAGS:
+                complex_parts.append(node)
+            elif (parent := node.parent) is not None and parent.tag == "tr":
+                careful_rows.add(parent.mem_id)  # a script or form among the cells
+        self.spanning = {node.mem_id for node in spanning}
+        complex_cells = self._cells_containing(complex_parts)
         self.hidden: set[int] = set()
         if drop_hidden:
             hidden_nodes = [node for node in table.css("[style], [hidden]") if is_hidden(node)]
             self.hidden = {node.mem_id for node in hidden_nodes}
-            hidden_cells = self._cells_containing(hidden_nodes)
-        self.complex = {node.mem_id for node in complex_cells + hidden_cells}
-        odd_children = table.css("tr > :not(td):not(th)" if not drop_hidden else "tr > *")
-        self.careful_rows = (
-            _parents(spanning_nodes)
-            | _parents(complex_cells + hidden_cells)
-            | _parents(table.css("th"))
-            | _parents(odd_children)
-        )
+            complex_cells += self._cells_containing(hidden_nodes)
+            careful_rows |= _parents(hidden_nodes)
+        self.complex = {node.mem_id for node in complex_cells}
+        self.careful_rows = careful_rows | _parents(spanning) | _parents(complex_cells)
 
     def build(self) -> Grid:
         grid = self.grid
@@ -288,6 +312,8 @@ class _GridBuilder:
                 if bare_rows:
                     groups.append(("", bare_rows))
                     bare_rows = []
+                if self.drop_hidden and is_hidden(child):
+                    continue  # CSS 2.1 §9.2.4: nothing inside a display:none box is shown
                 target = footers if tag == "tfoot" else groups
                 target.append((tag, [row for row in child.iter() if row.tag == "tr"]))
         if bare_rows:
@@ -329,23 +355,36 @@ class _GridBuilder:
             y = len(grid.row_nodes)
             grid.row_groups.append(kind)
             grid.row_nodes.append(tr)
+            if self.growing:
+                self._grow(y)
             if y == len(grid.text_rows):
                 if tr.mem_id not in self.careful_rows:
                     # A plain row: td cells only, no spans, no slot taken from above.
                     cells = list(tr.iter())
-                    grid.text_rows.append([" ".join(cell.text_lexbor().split()) for cell in cells])
+                    grid.text_rows.append(_collapsed([cell.text_lexbor() for cell in cells]))
                     grid.headers.append([False] * len(cells))
                     grid.nodes.append(cells)  # type: ignore[arg-type]
                     if len(cells) > grid.width:
                         grid.width = len(cells)
                     continue
-                grid.text_rows.append([])
-                grid.headers.append([])
-                grid.nodes.append([])
+                self._add_row()
             cells = [cell for cell in tr.iter() if cell.tag in _CELL_TAGS]
             if self.hidden:
                 cells = [cell for cell in cells if cell.mem_id not in self.hidden]
             self._process_row(y, cells, group_end)
+        self.growing.clear()  # §4.9.12.1 "ending a row group"
+
+    def _add_row(self) -> None:
+        self.grid.text_rows.append([])
+        self.grid.headers.append([])
+        self.grid.nodes.append([])
+
+    def _grow(self, y: int) -> None:
+        """§4.9.12.1 "growing downward-growing cells": extend each into row ``y``."""
+        while len(self.grid.text_rows) <= y:
+            self._add_row()
+        for node, text, header, x, anchor_y, width in self.growing:
+            self._claim(node, text, header, x, anchor_y, width, y, True)
 
     def _process_row(self, y: int, cells: list[LexborNode], group_end: int) -> None:
         grid = self.grid
@@ -355,49 +394,62 @@ class _GridBuilder:
             while x < len(nodes) and nodes[x] is not None:
                 x += 1
             width = height = 1
+            grows = False
             mem_id = node.mem_id
             if mem_id in self.spanning:
                 attributes = node.attributes
                 width = parse_span(attributes.get("colspan"), 1, 1, MAX_COLSPAN)
                 rowspan = parse_span(attributes.get("rowspan"), 1, 0, MAX_ROWSPAN)
-                # rowspan 0 grows to the end of the row group; longer spans are cut there.
-                height = group_end - y if rowspan == 0 else min(rowspan, group_end - y)
+                # rowspan 0 grows row by row to the end of the row group; longer spans are
+                # cut at that end (our one departure, see the module docstring).
+                grows = rowspan == 0
+                height = group_end - y if grows else min(rowspan, group_end - y)
             if mem_id in self.complex:
                 text = cell_text(node, drop_hidden=self.drop_hidden)
             else:
                 text = " ".join(node.text_lexbor().split())
-            self._place(node, text, node.tag == "th", x, y, width, height)
+            header = node.tag == "th"
+            spanning = width > 1 or height > 1
+            if spanning:
+                grid.spans[(x, y)] = (width, height)
+            for row_y in range(y, y + (1 if grows else height)):
+                self._claim(node, text, header, x, y, width, row_y, spanning)
+            if grows and height > 1:
+                self.growing.append((node, text, header, x, y, width))
             x += width
             if x > grid.width:
                 grid.width = x
 
-    def _place(
-        self, node: LexborNode, text: str, header: bool, x: int, y: int, width: int, height: int
+    def _claim(
+        self,
+        node: LexborNode,
+        text: str,
+        header: bool,
+        x: int,
+        anchor_y: int,
+        width: int,
+        row_y: int,
+        spanning: bool,
     ) -> None:
+        """Let the cell anchored at (x, anchor_y) cover its slots in row ``row_y``."""
         grid = self.grid
-        spanning = width > 1 or height > 1
-        if spanning:
-            grid.spans[(x, y)] = (width, height)
+        while len(grid.text_rows) <= row_y:
+            self._add_row()
         end = x + width
-        for row_y in range(y, y + height):
-            while len(grid.text_rows) <= row_y:
-                grid.text_rows.append([])
-                grid.headers.append([])
-                grid.nodes.append([])
-            texts, headers, nodes = grid.text_rows[row_y], grid.headers[row_y], grid.nodes[row_y]
-            missing = end - len(nodes)
-            if missing > 0:
-                texts.extend([""] * missing)
-                headers.extend([False] * missing)
-                nodes.extend([None] * missing)
-            for slot_x in range(x, end):
-                if nodes[slot_x] is not None:
-                    # §4.9.12.1: "those slots now have two cells overlapping" — the cell
-                    # placed first keeps the slot.
-                    grid.overlaps.append((slot_x, row_y))
-                    continue
-                texts[slot_x] = text
-                headers[slot_x] = header
-                nodes[slot_x] = node
-                if spanning:
-                    grid.owners[(slot_x, row_y)] = (x, y)
+        texts, headers, nodes = grid.text_rows[row_y], grid.headers[row_y], grid.nodes[row_y]
+        missing = end - len(nodes)
+        if missing > 0:
+            texts.extend([""] * missing)
+            headers.extend([False] * missing)
+            nodes.extend([None] * missing)
+        for slot_x in range(x, end):
+            if nodes[slot_x] is not None:
+                # §4.9.12.1: "those slots now have two cells overlapping" — the cell placed
+                # first keeps the slot.
+                grid.overlaps.append((slot_x, row_y))
+                continue
+            texts[slot_x] = text
+            headers[slot_x] = header
+            nodes[slot_x] = node
+            if spanning:
+                grid.owners[(slot_x, row_y)] = (x, anchor_y)

@@ -86,7 +86,7 @@ def _tables_for(document: LexborHTMLParser, select: str, source: str) -> list[Le
     except (SelectolaxError, ValueError) as exc:
         raise ExtractError(
             f"{source}: selector {select!r} is not valid CSS ({exc})",
-            hint="fix the selector, e.g. select = \"table#players\"",
+            hint='fix the selector, e.g. select = "table#players"',
         ) from exc
     tables: list[LexborNode] = []
     seen: set[int] = set()
@@ -129,7 +129,9 @@ def locate_table(page: Page, select: str = "table", index: int | None = None) ->
             )
         if index < len(matches):
             return matches[index]
-        problem = f"selector {select!r} matched {len(matches)} table(s); index {index} is out of range"
+        problem = (
+            f"selector {select!r} matched {len(matches)} table(s); index {index} is out of range"
+        )
         hint = "use an index below the number of matches"
     elif len(matches) == 1:
         return matches[0]
