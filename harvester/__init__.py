@@ -13,6 +13,7 @@ from harvester.errors import (
 )
 from harvester.extract.rules import ColumnRule, RowDrop, TableRule
 from harvester.extract.table import ExtractedTable, extract_grid, extract_table, read_page
+from harvester.recipe import PlannedPage, Recipe, RecipeTable, load_recipe
 
 __version__ = "0.1.0.dev0"
 
@@ -22,7 +23,10 @@ __all__ = [
     "ExtractedTable",
     "FetchError",
     "HarvesterError",
+    "PlannedPage",
+    "Recipe",
     "RecipeError",
+    "RecipeTable",
     "RowDrop",
     "StoreError",
     "TableNotFoundError",
@@ -31,5 +35,6 @@ __all__ = [
     "__version__",
     "extract_grid",
     "extract_table",
+    "load_recipe",
     "read_page",
 ]

@@ -88,4 +88,6 @@ def table_to_rich(
         view.add_column(headers[i] if headers is not None else str(i))
     for row in rows:
         view.add_row(*("" if value is None else str(value) for value in row))
-    Console(file=out).print(view)
+    # Piped output gets a generous width instead of rich's 80 columns, so no cell is cut.
+    width = None if out.isatty() else 240
+    Console(file=out, width=width).print(view)
