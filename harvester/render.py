@@ -89,5 +89,5 @@ def table_to_rich(
     for row in rows:
         view.add_row(*("" if value is None else str(value) for value in row))
     # Piped output gets a generous width instead of rich's 80 columns, so no cell is cut.
-    width = None if out.isatty() else 240
+    width: int | None = None if out.isatty() else 240
     Console(file=out, width=width).print(view)

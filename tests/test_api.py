@@ -1,10 +1,10 @@
 """The public surface: everything re-exported from ``harvester`` is listed, and nothing else."""
 
 from __future__ import annotations
+import __future__
 
 import importlib
 import pkgutil
-import __future__
 import types
 
 import harvester

@@ -41,13 +41,10 @@ _CELL_TAGS = frozenset({"td", "th"})
 # and script/style/template hold no visible text.
 _SKIPPED_TAGS = frozenset({"table", "script", "style", "template"})
 _COMPLEX_TAGS = frozenset({"br", "table", "script", "style", "template"})
-_CAREFUL_SELECTOR = (
-    "th, td[colspan], td[rowspan], br, table, script, style, template, tr > :not(td)"
-)
+# th cells and stray children of tr (script, form) are both "tr > :not(td)".
+_CAREFUL_SELECTOR = "td[colspan], td[rowspan], br, table, script, style, template, tr > :not(td)"
 _DISPLAY_NONE = re.compile(r"display\s*:\s*none", re.IGNORECASE)
-# Whitespace that collapsing would change: any but a single space between two characters.
-# Texts are joined with NUL, which lexbor never leaves in text (it becomes U+FFFD).
-_UNTIDY_SPACE = re.compile(r"[^\S ]| {2}|^ | $| \0|\0 ")
+_OTHER_SPACE = re.compile(r"[^\S ]")  # whitespace other than U+0020
 _LEADING_INT = re.compile(r"[\t\n\f\r ]*([+-]?)([0-9]+)")
 
 
@@ -246,7 +243,18 @@ def build_grid(table: LexborNode, *, drop_hidden: bool = False) -> Grid:
 
 def _collapsed(texts: list[str]) -> list[str]:
     """Collapse whitespace in each text, checking the whole row at once for the common case."""
-    if _UNTIDY_SPACE.search("\0".join(texts)) is None:
+    # Texts are joined with NUL, which lexbor never leaves in text (it becomes U+FFFD); the
+    # row is tidy unless some text has a double, leading or trailing space or other whitespace.
+    row = "\0".join(texts)
+    tidy = (
+        "  " not in row
+        and " \0" not in row
+        and "\0 " not in row
+        and row[:1] != " "
+        and row[-1:] != " "
+        and _OTHER_SPACE.search(row) is None
+    )
+    if tidy:
         return texts
     return [" ".join(text.split()) for text in texts]
 

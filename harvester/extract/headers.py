@@ -125,5 +125,7 @@ def is_group_label_row(grid: Grid, y: int) -> bool:
     """True if one non-empty cell spans the whole row (a label such as a conference name)."""
     if grid.width < 2 or not grid.text_rows[y][0]:
         return False
-    first = grid.owner(0, y)
-    return first is not None and all(grid.owner(x, y) == first for x in range(1, grid.width))
+    first = grid.owners.get((0, y))  # only slots of spanning cells have an owner entry
+    if first is None:
+        return False
+    return all(grid.owner(x, y) == first for x in range(1, grid.width))
