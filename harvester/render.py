@@ -83,11 +83,10 @@ def table_to_rich(
     from rich.table import Table
 
     view = Table(title=title or None, show_header=headers is not None)
-    width = max((len(row) for row in rows), default=len(headers or ()))
-    for i in range(width):
+    columns = max((len(row) for row in rows), default=len(headers or ()))
+    for i in range(columns):
         view.add_column(headers[i] if headers is not None else str(i))
     for row in rows:
         view.add_row(*("" if value is None else str(value) for value in row))
     # Piped output gets a generous width instead of rich's 80 columns, so no cell is cut.
-    width: int | None = None if out.isatty() else 240
-    Console(file=out, width=width).print(view)
+    Console(file=out, width=None if out.isatty() else 240).print(view)
