@@ -1,0 +1,144 @@
+"""The extraction pipeline (harvester/extract/table.py): rules applied end to end.
+
+Expected values are worked out by hand from the small pages below.
+"""
+
+from __future__ import annotations
+
+import pyarrow as pa
+import pytest
+
+from harvester import ColumnRule, ExtractError, RowDrop, TableRule, ValueParseError, extract_table
+
+ROSTER = """
+<table id="roster">
+<thead><tr><th>Player</th><th>Club</th><th>Goals</th></tr></thead>
+<tbody>
+<tr><td colspan="3">North Conference</td></tr>
+<tr><td><a href="/players/p0007.html">Lea Varn</a>*</td><td>HRN</td><td>1,204</td></tr>
+<tr><td><a href="players/p0012.html">Osk Belund</a></td><td>DAS</td><td>−3</td></tr>
+<tr><td colspan="3">South Conference</td></tr>
+<tr><td>Mira Tavik†</td><td>QUE</td><td>—</td></tr>
+</tbody>
+</table>
+"""
+
+
+def test_markers_are_kept_in_their_own_column_next_to_the_source() -> None:
+    rule = TableRule(columns=(ColumnRule(name="player", markers_to="flags"),))
+    table = extract_table(ROSTER, rule).table
+    assert table.column_names == ["player", "flags", "club", "goals"]
+    assert table.column("player").to_pylist() == ["Lea Varn", "Osk Belund", "Mira Tavik"]
+    assert table.column("flags").to_pylist() == ["*", None, "†"]
+
+
+def test_link_column_applies_the_pattern_and_resolves_against_the_base_url() -> None:
+    rule = TableRule(
+        columns=(
+            ColumnRule(name="player_id", link_of="player", pattern=r"/players/(p\d+)"),
+            ColumnRule(name="player_url", link_of="player"),
+        )
+    )
+    result = extract_table(ROSTER, rule, base_url="http://127.0.0.1:8650/seasons/2026/x.html")
+    table = result.table
+    assert table.column_names == ["player", "player_id", "player_url", "club", "goals"]
+    assert table.column("player_id").to_pylist() == ["p0007", "p0012", None]
+    # RFC 3986 §5.2 reference resolution: "players/…" is relative to the page's folder.
+    assert table.column("player_url").to_pylist() == [
+        "http://127.0.0.1:8650/players/p0007.html",
+        "http://127.0.0.1:8650/seasons/2026/players/p0012.html",
+        None,
+    ]
+
+
+def test_group_labels_become_a_first_column_when_asked() -> None:
+    rule = TableRule(group_rows="column", group_column="conference")
+    table = extract_table(ROSTER, rule).table
+    assert table.column_names[0] == "conference"
+    assert table.column("conference").to_pylist() == [
+        "North Conference",
+        "North Conference",
+        "South Conference",
+    ]
+
+
+def test_source_rows_point_at_grid_rows() -> None:
+    # Grid rows: 0 header, 1 label, 2 Lea, 3 Osk, 4 label, 5 Mira.
+    assert extract_table(ROSTER).source_rows == (2, 3, 5)
+
+
+def test_inferred_types_with_minus_sign_grouping_and_em_dash() -> None:
+    table = extract_table(ROSTER).table
+    assert table.schema.field("goals").type == pa.int64()
+    assert table.column("goals").to_pylist() == [1204, -3, None]
+
+
+def test_decimal_comma_tables() -> None:
+    page = "<table><tr><th>Wert</th></tr><tr><td>1.250,5</td></tr><tr><td>−0,25</td></tr></table>"
+    table = extract_table(page, TableRule(decimal_mark=",")).table
+    assert table.column("wert").to_pylist() == [1250.5, -0.25]
+
+
+def test_declared_type_that_does_not_fit_names_column_row_and_text() -> None:
+    rule = TableRule(columns=(ColumnRule(name="club", type="integer"),))
+    with pytest.raises(ValueParseError) as caught:
+        extract_table(ROSTER, rule)
+    message = str(caught.value)
+    assert "club" in message and "HRN" in message
+    assert "\n" not in message
+
+
+def test_rule_for_a_column_the_table_lacks_lists_the_columns() -> None:
+    rule = TableRule(columns=(ColumnRule(name="gaols", type="integer"),))
+    with pytest.raises(ExtractError) as caught:
+        extract_table(ROSTER, rule, source="roster.html")
+    message = str(caught.value)
+    assert "roster.html" in message and "'gaols'" in message
+    assert "player, club, goals" in message
+
+
+def test_link_of_an_unknown_column_is_an_error() -> None:
+    rule = TableRule(columns=(ColumnRule(name="player_id", link_of="name"),))
+    with pytest.raises(ExtractError, match="link_of = 'name'"):
+        extract_table(ROSTER, rule)
+
+
+def test_new_column_may_not_reuse_an_existing_name() -> None:
+    rule = TableRule(columns=(ColumnRule(name="club", link_of="player"),))
+    with pytest.raises(ExtractError, match="clashes"):
+        extract_table(ROSTER, rule)
+
+
+def test_group_column_may_not_reuse_an_existing_name() -> None:
+    with pytest.raises(ExtractError, match="group_column 'club'"):
+        extract_table(ROSTER, TableRule(group_rows="column", group_column="club"))
+
+
+def test_key_columns_must_exist() -> None:
+    with pytest.raises(ExtractError, match="key column"):
+        extract_table(ROSTER, TableRule(key=("player_id",)))
+
+
+def test_drop_rows_then_types_see_only_the_kept_rows() -> None:
+    # Dropping the em-dash row leaves goals all integers; the pattern must match in full.
+    rule = TableRule(drop_rows=(RowDrop(column="player", matches=r"Mira Tavik."),))
+    table = extract_table(ROSTER, rule).table
+    assert table.column("player").to_pylist() == ["Lea Varn", "Osk Belund"]
+    assert table.column("goals").null_count == 0
+
+
+def test_commented_table_is_reported_as_such() -> None:
+    page = '<div><!-- <table id="adv"><tr><th>A</th></tr><tr><td>1</td></tr></table> --></div>'
+    result = extract_table(page, TableRule(select="#adv"))
+    assert result.in_comment
+    assert result.table.to_pylist() == [{"a": 1}]
+
+
+def test_overlapping_cells_are_counted() -> None:
+    # HTML §4.9.12.1: the rowspan=2 cell and the colspan=2 cell claim the same slot.
+    page = (
+        "<table><tr><th>a</th><th>b</th><th>c</th></tr>"
+        "<tr><td>1</td><td rowspan=2>2</td><td>3</td></tr>"
+        "<tr><td colspan=2>4</td><td>5</td></tr></table>"
+    )
+    assert extract_table(page).overlaps == 1
