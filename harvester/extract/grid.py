@@ -75,12 +75,16 @@ def link_of(node: LexborNode) -> str | None:
 
 
 class Grid:
-    """A table's slots, stored as parallel matrices so that large tables stay cheap.
+    """A table's slots, stored as matrices so that large tables stay cheap.
 
-    ``text_rows[y][x]`` is the text of the cell covering slot (x, y) ("" where no cell does);
-    ``headers[y][x]`` says whether that cell is a ``th``; ``nodes[y][x]`` is its element, or
-    None where no cell covers the slot. Slots covered by a spanning cell map to the cell's
-    anchor (top-left) slot in ``owners``. ``rows`` gives the same grid as Cell objects.
+    ``text_rows[y][x]`` is the text of the cell covering slot (x, y) ("" where no cell does).
+    For rows that needed care (spans, ``th`` cells, slots taken from above), ``headers[y][x]``
+    says whether the covering cell is a ``th`` and ``nodes[y][x]`` is its element, or None where
+    no cell covers the slot. A *plain* row (only ``td`` cells, nothing spanning into it) keeps
+    None in both: its cells are its ``td`` children in order, ``plain_widths[y]`` of them. This
+    keeps one list per row instead of three plus one element handle per slot, which is most of
+    the cost on large pages. Slots covered by a spanning cell map to the cell's anchor
+    (top-left) slot in ``owners``. ``rows`` gives the same grid as Cell objects.
     """
 
     __slots__ = (
@@ -90,6 +94,7 @@ class Grid:
         "nodes",
         "overlaps",
         "owners",
+        "plain_widths",
         "row_groups",
         "row_nodes",
         "spans",
@@ -99,8 +104,9 @@ class Grid:
 
     def __init__(self, row_groups: list[str], row_nodes: list[LexborNode]) -> None:
         self.text_rows: list[list[str]] = []
-        self.headers: list[list[bool]] = []
-        self.nodes: list[list[LexborNode | None]] = []
+        self.headers: list[list[bool] | None] = []
+        self.nodes: list[list[LexborNode | None] | None] = []
+        self.plain_widths: dict[int, int] = {}
         self.owners: dict[tuple[int, int], tuple[int, int]] = {}
         self.spans: dict[tuple[int, int], tuple[int, int]] = {}  # anchor → (width, height)
         self.width = 0
@@ -115,9 +121,30 @@ class Grid:
         """Number of rows in the grid."""
         return len(self.text_rows)
 
+    def has_cell(self, x: int, y: int) -> bool:
+        """Whether a cell covers slot (x, y)."""
+        nodes = self.nodes[y]
+        if nodes is None:
+            return x < self.plain_widths[y]
+        return nodes[x] is not None
+
+    def is_header(self, x: int, y: int) -> bool:
+        """Whether the cell covering slot (x, y) is a ``th``."""
+        headers = self.headers[y]
+        return headers is not None and headers[x]
+
+    def node(self, x: int, y: int) -> LexborNode | None:
+        """The element of the cell covering slot (x, y), or None."""
+        nodes = self.nodes[y]
+        if nodes is not None:
+            return nodes[x]
+        if x >= self.plain_widths[y]:
+            return None
+        return list(self.row_nodes[y].iter())[x]
+
     def owner(self, x: int, y: int) -> tuple[int, int] | None:
         """The anchor slot of the cell covering (x, y), or None if no cell covers it."""
-        if self.nodes[y][x] is None:
+        if not self.has_cell(x, y):
             return None
         return self.owners.get((x, y), (x, y))
 
@@ -131,7 +158,7 @@ class Grid:
 
     def link(self, x: int, y: int) -> str | None:
         """The link target inside the cell covering (x, y), if any."""
-        node = self.nodes[y][x]
+        node = self.node(x, y)
         return link_of(node) if node is not None else None
 
     @property
@@ -140,9 +167,10 @@ class Grid:
         if self._cells is None:
             made: dict[tuple[int, int], Cell] = {}
             cells: list[list[Cell | None]] = []
-            for y, nodes in enumerate(self.nodes):
+            for y in range(self.height):
                 row: list[Cell | None] = []
-                for x, node in enumerate(nodes):
+                for x in range(self.width):
+                    node = self.node(x, y)
                     if node is None:
                         row.append(None)
                         continue
@@ -151,15 +179,8 @@ class Grid:
                     if cell is None:
                         ax, ay = anchor
                         width, height = self.spans.get(anchor, (1, 1))
-                        cell = Cell(
-                            self.text_rows[ay][ax],
-                            self.headers[ay][ax],
-                            ax,
-                            ay,
-                            width,
-                            height,
-                            node,
-                        )
+                        header = self.is_header(ax, ay)
+                        cell = Cell(self.text_rows[ay][ax], header, ax, ay, width, height, node)
                         made[anchor] = cell
                     row.append(cell)
                 cells.append(row)
@@ -333,8 +354,9 @@ class _GridBuilder:
             missing = width - len(texts)
             if missing > 0:
                 texts.extend([""] * missing)
-                headers.extend([False] * missing)
-                nodes.extend([None] * missing)
+                if headers is not None and nodes is not None:
+                    headers.extend([False] * missing)
+                    nodes.extend([None] * missing)
         return grid
 
     def _cells_containing(self, nodes: list[LexborNode]) -> list[LexborNode]:
@@ -368,12 +390,13 @@ class _GridBuilder:
             if y == len(grid.text_rows):
                 if tr.mem_id not in self.careful_rows:
                     # A plain row: td cells only, no spans, no slot taken from above.
-                    cells = list(tr.iter())
-                    grid.text_rows.append(_collapsed([cell.text_lexbor() for cell in cells]))
-                    grid.headers.append([False] * len(cells))
-                    grid.nodes.append(cells)  # type: ignore[arg-type]
-                    if len(cells) > grid.width:
-                        grid.width = len(cells)
+                    texts = _collapsed([cell.text_lexbor() for cell in tr.iter()])
+                    grid.text_rows.append(texts)
+                    grid.headers.append(None)
+                    grid.nodes.append(None)
+                    grid.plain_widths[y] = len(texts)
+                    if len(texts) > grid.width:
+                        grid.width = len(texts)
                     continue
                 self._add_row()
             cells = [cell for cell in tr.iter() if cell.tag in _CELL_TAGS]
@@ -396,7 +419,8 @@ class _GridBuilder:
 
     def _process_row(self, y: int, cells: list[LexborNode], group_end: int) -> None:
         grid = self.grid
-        nodes = grid.nodes[y]
+        texts, headers, nodes = grid.text_rows[y], grid.headers[y], grid.nodes[y]
+        assert headers is not None and nodes is not None  # careful rows keep both
         x = 0
         for node in cells:
             while x < len(nodes) and nodes[x] is not None:
@@ -417,11 +441,23 @@ class _GridBuilder:
             else:
                 text = " ".join(node.text_lexbor().split())
             header = node.tag == "th"
-            spanning = width > 1 or height > 1
-            if spanning:
-                grid.spans[(x, y)] = (width, height)
+            if width == 1 and height == 1:
+                # The common cell, claimed inline: this loop runs once per cell.
+                if x == len(nodes):
+                    texts.append(text)
+                    headers.append(header)
+                    nodes.append(node)
+                elif nodes[x] is None:  # a gap left by a wider cell overlapping this row
+                    texts[x], headers[x], nodes[x] = text, header, node
+                else:
+                    grid.overlaps.append((x, y))
+                x += 1
+                if x > grid.width:
+                    grid.width = x
+                continue
+            grid.spans[(x, y)] = (width, height)
             for row_y in range(y, y + (1 if grows else height)):
-                self._claim(node, text, header, x, y, width, row_y, spanning)
+                self._claim(node, text, header, x, y, width, row_y, True)
             if grows and height > 1:
                 self.growing.append((node, text, header, x, y, width))
             x += width
@@ -445,6 +481,7 @@ class _GridBuilder:
             self._add_row()
         end = x + width
         texts, headers, nodes = grid.text_rows[row_y], grid.headers[row_y], grid.nodes[row_y]
+        assert headers is not None and nodes is not None  # rows with spans are careful rows
         missing = end - len(nodes)
         if missing > 0:
             texts.extend([""] * missing)

@@ -41,11 +41,7 @@ def header_row_indices(grid: Grid, header_rows: int | None = None) -> list[int]:
         return thead
     leading: list[int] = []
     for y in range(grid.height):
-        flags = [
-            header
-            for header, node in zip(grid.headers[y], grid.nodes[y], strict=True)
-            if node is not None
-        ]
+        flags = [grid.is_header(x, y) for x in range(grid.width) if grid.has_cell(x, y)]
         if not flags or not all(flags):
             break
         if leading and is_group_label_row(grid, y):
