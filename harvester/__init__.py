@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from harvester._version import __version__
 from harvester.errors import (
     ExtractError,
     FetchError,
@@ -14,8 +15,6 @@ from harvester.errors import (
 from harvester.extract.rules import ColumnRule, RowDrop, TableRule
 from harvester.extract.table import ExtractedTable, extract_grid, extract_table, read_page
 from harvester.recipe import PlannedPage, Recipe, RecipeTable, load_recipe
-
-__version__ = "0.1.0.dev0"
 
 __all__ = [
     "ColumnRule",

@@ -5,7 +5,12 @@
     ├── ExtractError(ValueError)        a table cannot be located or read from a page
     │   └── TableNotFoundError(LookupError)  a selector matched no table, or several
     ├── ValueParseError(ValueError)     a cell does not parse as its column's declared type
-    ├── FetchError                      reserved for the fetcher (HTTP, limits, robots.txt)
+    ├── FetchError                      a page could not be fetched
+    │   ├── RobotsDisallowedError       robots.txt disallows the URL for our agent (names the rule)
+    │   ├── HostPausedError             the host's circuit breaker is open for the rest of the run
+    │   ├── FetchLimitError             a hard limit was hit (size, decompression, redirects, type)
+    │   ├── HttpStatusError             the final answer was not a 2xx (carries the status)
+    │   └── NotCachedError              --offline and the cache has no copy
     └── StoreError                      reserved for the archive
 
 Each error carries a ``hint`` saying what to do; the CLI prints ``message`` then the hint on the
@@ -17,8 +22,13 @@ from __future__ import annotations
 __all__ = [
     "ExtractError",
     "FetchError",
+    "FetchLimitError",
     "HarvesterError",
+    "HostPausedError",
+    "HttpStatusError",
+    "NotCachedError",
     "RecipeError",
+    "RobotsDisallowedError",
     "StoreError",
     "TableNotFoundError",
     "ValueParseError",
@@ -70,9 +80,37 @@ class ValueParseError(HarvesterError, ValueError):
 
 
 class FetchError(HarvesterError):
-    """A page could not be fetched (reserved for the fetcher)."""
+    """A page could not be fetched."""
 
     exit_code = 4
+
+    def __init__(self, message: str, *, url: str = "", hint: str = "") -> None:
+        super().__init__(f"{url}: {message}" if url else message, hint=hint)
+        self.url = url
+
+
+class RobotsDisallowedError(FetchError):
+    """robots.txt disallows the URL for our agent; the message names the matching rule."""
+
+
+class HostPausedError(FetchError):
+    """Too many consecutive failures on one host: it is paused for the rest of the run."""
+
+
+class FetchLimitError(FetchError):
+    """A hard limit was hit: body size, decompressed size, redirects, scheme or content type."""
+
+
+class HttpStatusError(FetchError):
+    """The final response was not a success; ``status`` says which."""
+
+    def __init__(self, message: str, *, url: str = "", status: int = 0, hint: str = "") -> None:
+        super().__init__(message, url=url, hint=hint)
+        self.status = status
+
+
+class NotCachedError(FetchError):
+    """Offline mode was asked for and the cache holds no copy of the URL."""
 
 
 class StoreError(HarvesterError):

@@ -1,0 +1,27 @@
+"""Hard limits every fetch obeys, whatever the site sends."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+__all__ = ["FetchLimits"]
+
+
+@dataclass(frozen=True)
+class FetchLimits:
+    """Sizes, times and counts a fetch may not exceed.
+
+    The defaults suit statistics pages: the largest seen in practice are a few MB (common
+    practice, no published source); 50 MB leaves room without letting one answer fill memory.
+    """
+
+    max_body_bytes: int = 50 * 2**20  # bytes on the wire
+    max_decoded_bytes: int = 200 * 2**20  # after Content-Encoding: a compression-bomb guard
+    connect_timeout: float = 10.0
+    read_timeout: float = 30.0  # between two received chunks
+    total_timeout: float = 120.0  # one request, headers to last byte
+    max_redirects: int = 10  # RFC 9110 §15.4 asks for loop detection; a fixed cap plus a visited set
+    robots_max_redirects: int = 5  # RFC 9309 §2.3.1.2: follow at least five
+    robots_parse_limit: int = 512_000  # RFC 9309 §2.5: at least 500 KiB
+    schemes: tuple[str, ...] = ("http", "https")
+    content_types: tuple[str, ...] = ("text/html", "application/xhtml+xml")

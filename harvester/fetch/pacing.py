@@ -1,0 +1,166 @@
+"""Per-host pacing: spaced request starts, one request in flight, back-off and a circuit breaker.
+
+A host is the (scheme, host, port) triple, as RFC 9309 §2.3 keys robots.txt. For each host the
+pacer keeps the earliest time the next request may start. A request takes the host's slot
+(one in flight at a time), waits until that time, and on start pushes it on by the host's
+interval plus a small jitter — jitter only ever adds, so no two starts are ever closer than the
+interval. A 429 or 503 raises the interval (and honours Retry-After); successes let it decay
+slowly back to the base. After ``failure_limit`` consecutive failures the host is paused for the
+rest of the run, and every later request to it fails at once, while other hosts go on.
+"""
+
+from __future__ import annotations
+
+import asyncio
+import random
+import time
+from collections.abc import AsyncIterator, Awaitable, Callable
+from contextlib import asynccontextmanager
+from dataclasses import dataclass, field
+from urllib.parse import urlsplit
+
+from harvester.errors import HostPausedError
+
+__all__ = ["DEFAULT_INTERVAL", "HostKey", "HostPacer", "host_key"]
+
+HostKey = tuple[str, str, int]
+DEFAULT_INTERVAL = 1.0  # seconds between starts when robots.txt names no Crawl-delay
+_DEFAULT_PORTS = {"http": 80, "https": 443}
+
+
+def host_key(url: str) -> HostKey:
+    """The (scheme, host, port) a URL's requests are paced by; default ports made explicit."""
+    parts = urlsplit(url)
+    scheme = parts.scheme.lower()
+    port = parts.port or _DEFAULT_PORTS.get(scheme, 0)
+    return scheme, (parts.hostname or "").lower(), port
+
+
+def describe(host: HostKey) -> str:
+    """A host key as a URL origin, for messages."""
+    scheme, name, port = host
+    default = _DEFAULT_PORTS.get(scheme)
+    return f"{scheme}://{name}" if port == default else f"{scheme}://{name}:{port}"
+
+
+@dataclass
+class _Host:
+    base: float  # the interval robots.txt and the recipe ask for
+    raised: float = 0.0  # an interval forced by 429/503, decaying with successes
+    hold_until: float = 0.0  # no start before this clock reading (Retry-After, back-off)
+    spread: float = 1.0  # the jitter factor drawn at the last start
+    failures: int = 0
+    paused: str | None = None
+    lock: asyncio.Lock = field(default_factory=asyncio.Lock)
+    starts: list[float] = field(default_factory=list)
+
+
+class HostPacer:
+    """Spaces request starts per host and pauses hosts that keep failing."""
+
+    def __init__(
+        self,
+        *,
+        default_interval: float = DEFAULT_INTERVAL,
+        jitter: float = 0.05,
+        raise_factor: float = 2.0,
+        decay: float = 0.9,
+        max_interval: float = 300.0,
+        failure_limit: int = 5,
+        clock: Callable[[], float] = time.monotonic,
+        sleep: Callable[[float], Awaitable[None]] = asyncio.sleep,
+        seed: int | None = None,
+    ) -> None:
+        self.default_interval = default_interval
+        self.jitter = jitter  # a fraction of the interval, added at random to each gap
+        self.raise_factor = raise_factor
+        self.decay = decay
+        self.max_interval = max_interval
+        self.failure_limit = failure_limit
+        self._clock = clock
+        self._sleep = sleep
+        self._random = random.Random(seed)
+        self._hosts: dict[HostKey, _Host] = {}
+
+    def _host(self, host: HostKey) -> _Host:
+        state = self._hosts.get(host)
+        if state is None:
+            state = _Host(self.default_interval)
+            self._hosts[host] = state
+        return state
+
+    def set_interval(self, host: HostKey, seconds: float) -> None:
+        """Set the host's base interval (the larger of Crawl-delay and the recipe's delay)."""
+        self._host(host).base = max(0.0, seconds)
+
+    @staticmethod
+    def _interval(state: _Host) -> float:
+        return max(state.base, state.raised)
+
+    def interval(self, host: HostKey) -> float:
+        """The interval in force for a host, in seconds."""
+        return self._interval(self._host(host))
+
+    def paused(self, host: HostKey) -> str | None:
+        """Why the host is paused, or None."""
+        return self._host(host).paused
+
+    def starts(self, host: HostKey) -> list[float]:
+        """Clock readings of every request start on the host, in order."""
+        return list(self._host(host).starts)
+
+    @asynccontextmanager
+    async def slot(self, host: HostKey) -> AsyncIterator[float]:
+        """Hold the host's one request slot, starting no earlier than its pace allows."""
+        state = self._host(host)
+        self._check_paused(host, state)
+        async with state.lock:
+            self._check_paused(host, state)
+            # Waiting in a loop: a back-off may push the time on while this request waits.
+            while (wait := self._earliest(state) - self._clock()) > 0:
+                await self._sleep(wait)
+            start = self._clock()
+            state.spread = 1.0 + self._random.uniform(0.0, self.jitter)
+            state.starts.append(start)
+            yield start
+
+    def _earliest(self, state: _Host) -> float:
+        """The clock reading before which the host's next request may not start."""
+        if not state.starts:
+            return state.hold_until
+        return max(state.starts[-1] + self._interval(state) * state.spread, state.hold_until)
+
+    def _check_paused(self, host: HostKey, state: _Host) -> None:
+        if state.paused is not None:
+            raise HostPausedError(
+                f"host paused for the rest of the run: {state.paused}",
+                url=describe(host),
+                hint="check the site by hand; re-run later (a new run starts afresh)",
+            )
+
+    def back_off(self, host: HostKey, retry_after: float | None) -> float:
+        """After a 429 or 503: raise the interval and push the next start; return the wait.
+
+        With Retry-After the next start waits at least that long (RFC 9110 §10.2.3); the
+        interval itself doubles (up to ``max_interval``) and decays again with successes.
+        """
+        state = self._host(host)
+        state.raised = min(self.max_interval, max(self._interval(state), 0.5) * self.raise_factor)
+        wait = max(retry_after if retry_after is not None else 0.0, state.raised)
+        state.hold_until = max(state.hold_until, self._clock() + wait)
+        return wait
+
+    def succeeded(self, host: HostKey) -> None:
+        """A request worked: clear the failure count and let a raised interval decay."""
+        state = self._host(host)
+        state.failures = 0
+        state.raised = state.raised * self.decay if state.raised > state.base else 0.0
+
+    def failed(self, host: HostKey, reason: str) -> bool:
+        """A request failed for good; return True when this opens the host's circuit breaker."""
+        state = self._host(host)
+        state.failures += 1
+        if state.failures >= self.failure_limit and state.paused is None:
+            state.paused = f"{state.failures} consecutive failures, the last: {reason}"
+            return True
+        return False

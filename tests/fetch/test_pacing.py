@@ -1,0 +1,162 @@
+"""Per-host pacing with a fake clock: exact spacing, back-off, decay and the circuit breaker.
+
+The network-level proof (a real server counting violations) is in tests/fetch/test_fetcher.py.
+"""
+
+from __future__ import annotations
+
+import asyncio
+
+import pytest
+
+from harvester.errors import HostPausedError
+from harvester.fetch.pacing import HostPacer, host_key
+
+
+class FakeClock:
+    """A clock that only moves when something sleeps."""
+
+    def __init__(self) -> None:
+        self.now = 100.0
+
+    def __call__(self) -> float:
+        return self.now
+
+    async def sleep(self, seconds: float) -> None:
+        self.now += seconds
+        await asyncio.sleep(0)
+
+
+def pacer(clock: FakeClock, **options: float) -> HostPacer:
+    return HostPacer(clock=clock, sleep=clock.sleep, seed=1, **options)  # type: ignore[arg-type]
+
+
+A = host_key("http://127.0.0.1:8650/seasons/2026/players.html")
+B = host_key("http://127.0.0.2:8650/x")
+
+
+def run(coroutine: object) -> object:
+    return asyncio.run(coroutine)  # type: ignore[arg-type]
+
+
+def test_host_key_is_scheme_host_port_with_default_ports() -> None:
+    # RFC 9309 §2.3: one robots.txt per scheme, host and port, so pacing keys the same way.
+    assert host_key("HTTP://Example.ORG/a") == ("http", "example.org", 80)
+    assert host_key("https://example.org/a") == ("https", "example.org", 443)
+    assert host_key("http://127.0.0.1:8650/") == ("http", "127.0.0.1", 8650)
+
+
+def test_starts_on_one_host_are_never_closer_than_the_interval() -> None:
+    clock = FakeClock()
+    pace = pacer(clock, jitter=0.1)
+    pace.set_interval(A, 0.5)
+
+    async def many() -> None:
+        for _ in range(10):
+            async with pace.slot(A):
+                pass
+
+    run(many())
+    starts = pace.starts(A)
+    gaps = [later - earlier for earlier, later in zip(starts, starts[1:], strict=False)]
+    assert len(gaps) == 9
+    assert min(gaps) >= 0.5  # jitter only adds
+    assert max(gaps) <= 0.5 * 1.1 + 1e-9
+
+
+def test_one_request_in_flight_per_host() -> None:
+    clock = FakeClock()
+    pace = pacer(clock, jitter=0.0)
+    pace.set_interval(A, 0.0)
+    inside = 0
+    most = 0
+
+    async def one() -> None:
+        nonlocal inside, most
+        async with pace.slot(A):
+            inside += 1
+            most = max(most, inside)
+            await clock.sleep(1.0)
+            inside -= 1
+
+    async def together() -> None:
+        await asyncio.gather(*(one() for _ in range(5)))
+
+    run(together())
+    assert most == 1
+
+
+def test_different_hosts_do_not_wait_for_each_other() -> None:
+    clock = FakeClock()
+    pace = pacer(clock, jitter=0.0)
+    pace.set_interval(A, 10.0)
+    pace.set_interval(B, 10.0)
+
+    async def both() -> None:
+        async with pace.slot(A):
+            pass
+        async with pace.slot(B):
+            pass
+
+    run(both())
+    assert pace.starts(A) == [100.0]
+    assert pace.starts(B) == [100.0]
+
+
+def test_retry_after_holds_the_host_and_raises_the_interval() -> None:
+    clock = FakeClock()
+    pace = pacer(clock, jitter=0.0)
+    pace.set_interval(A, 1.0)
+
+    async def scenario() -> None:
+        async with pace.slot(A):
+            pass
+        waited = pace.back_off(A, retry_after=7.0)  # RFC 9110 §10.2.3
+        assert waited == 7.0
+        async with pace.slot(A):
+            pass
+
+    run(scenario())
+    first, second = pace.starts(A)
+    assert second - first == pytest.approx(7.0)
+    assert pace.interval(A) == 2.0  # doubled from the base of 1 s
+
+
+def test_raised_interval_decays_back_to_the_base_with_successes() -> None:
+    clock = FakeClock()
+    pace = pacer(clock, jitter=0.0, decay=0.5)
+    pace.set_interval(A, 1.0)
+    pace.back_off(A, None)
+    pace.back_off(A, None)
+    assert pace.interval(A) == 4.0
+    pace.succeeded(A)
+    assert pace.interval(A) == 2.0
+    pace.succeeded(A)
+    pace.succeeded(A)
+    assert pace.interval(A) == 1.0
+
+
+def test_circuit_breaker_pauses_only_the_failing_host() -> None:
+    clock = FakeClock()
+    pace = pacer(clock, failure_limit=3)
+    assert not pace.failed(A, "HTTP 503")
+    assert not pace.failed(A, "HTTP 503")
+    assert pace.failed(A, "timed out")
+    assert pace.paused(A) is not None and "timed out" in (pace.paused(A) or "")
+
+    async def try_host(host: tuple[str, str, int]) -> None:
+        async with pace.slot(host):
+            pass
+
+    with pytest.raises(HostPausedError, match="3 consecutive failures"):
+        run(try_host(A))
+    run(try_host(B))  # the other host goes on
+    assert len(pace.starts(B)) == 1
+
+
+def test_a_success_resets_the_failure_count() -> None:
+    pace = pacer(FakeClock(), failure_limit=2)
+    pace.failed(A, "x")
+    pace.succeeded(A)
+    assert not pace.failed(A, "x")
+    assert pace.paused(A) is None
