@@ -1,0 +1,55 @@
+"""Shared fixtures: the demo site as a real HTTP server on 127.0.0.1, started per test.
+
+``demo_site`` is a started ``DemoServer`` with the default options except a crawl delay of
+``TEST_CRAWL_DELAY`` seconds, so tests stay quick. ``demo_site_factory(**options)`` starts servers
+with any ``DemoServer`` options (the crawl delay again defaults to ``TEST_CRAWL_DELAY``). Every
+server is stopped after the test, and a server-side exception fails the test at teardown.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Iterator
+from typing import Any
+
+import pytest
+
+from harvester.demo.server import DemoServer
+
+__all__ = ["TEST_CRAWL_DELAY", "demo_site", "demo_site_factory"]
+
+TEST_CRAWL_DELAY = 0.05
+
+
+def _stop(*sites: DemoServer) -> None:
+    for site in sites:
+        site.stop()
+    for site in sites:
+        errors = site.errors
+        assert not errors, f"demo server raised {len(errors)} error(s); first:\n{errors[0]}"
+
+
+@pytest.fixture
+def demo_site() -> Iterator[DemoServer]:
+    """A started demo server on a free loopback port, stopped after the test."""
+    site = DemoServer(crawl_delay=TEST_CRAWL_DELAY).start()
+    try:
+        yield site
+    finally:
+        _stop(site)
+
+
+@pytest.fixture
+def demo_site_factory() -> Iterator[Callable[..., DemoServer]]:
+    """Start demo servers with ``DemoServer`` options; all are stopped after the test."""
+    started: list[DemoServer] = []
+
+    def start(**options: Any) -> DemoServer:
+        options.setdefault("crawl_delay", TEST_CRAWL_DELAY)
+        site = DemoServer(**options).start()
+        started.append(site)
+        return site
+
+    try:
+        yield start
+    finally:
+        _stop(*started)
