@@ -18,6 +18,8 @@ from harvester import __version__
 from harvester.errors import HarvesterError
 from harvester.extract.rules import TableRule
 from harvester.extract.table import extract_grid, extract_table, read_page
+from harvester.fetch.identity import AGENT_TOKEN
+from harvester.fetch.robots import Verdict, robots_url
 from harvester.render import (
     grid_to_csv,
     grid_to_json,
@@ -295,6 +297,73 @@ def demo(
         )
         shown = [list(row.values()) for row in table_rows(table.slice(0, rows))]
         table_to_rich(shown, table.column_names, sys.stdout, title=title)
+
+
+@app.command()
+def robots(
+    urls: Annotated[list[str], typer.Argument(metavar="URL...", help="URLs (or paths) to test.")],
+    robots_file: Annotated[
+        Path | None,
+        typer.Option("--robots-file", metavar="FILE", help="Judge by this robots.txt file."),
+    ] = None,
+    agent: Annotated[
+        str, typer.Option("--agent", metavar="NAME", help="Product token to match groups by.")
+    ] = AGENT_TOKEN,
+    contact: Annotated[
+        str | None,
+        typer.Option("--contact", help="Your e-mail or URL, sent when fetching robots.txt."),
+    ] = None,
+    explain: Annotated[
+        bool, typer.Option("--explain", help="Add the deciding rule as a third column.")
+    ] = False,
+) -> None:
+    """Say, per URL, whether robots.txt allows it: allowed<TAB>URL or disallowed<TAB>URL.
+
+    With --robots-file the file decides and nothing is fetched. Without it, each site's
+    robots.txt is fetched politely (with --contact) and the Crawl-delay in force is printed
+    last as crawl-delay<TAB>SECONDS. robots.txt is a site's wish, not a permission.
+
+    Example: harvester robots --robots-file robots.txt --agent harvester /seasons/2026/ /private/
+    """
+    from harvester.fetch.robots import RobotsTxt
+
+    if robots_file is not None:
+        rules = RobotsTxt.parse(_read_input(str(robots_file)))
+        for url in urls:
+            _print_verdict(url, rules.check(url, agent), explain)
+        return
+    try:
+        _robots_live(urls, agent, contact, explain)
+    except HarvesterError as error:
+        _fail(error)
+
+
+def _print_verdict(url: str, verdict: Verdict, explain: bool) -> None:
+    line = f"{'allowed' if verdict.allowed else 'disallowed'}\t{url}"
+    if explain:
+        rule = verdict.rule
+        why = verdict.reason
+        if rule is not None:
+            why = f"line {rule.line}: {'Allow' if rule.allow else 'Disallow'}: {rule.pattern}"
+        line += f"\t{why}"
+    typer.echo(line)
+
+
+def _robots_live(urls: list[str], agent: str, contact: str | None, explain: bool) -> None:
+    from harvester.fetch.identity import Identity
+    from harvester.fetch.sync import SyncFetcher
+
+    identity = Identity.from_contact(contact, where="--contact")
+    with SyncFetcher(identity) as fetcher:
+        delays: dict[str, float | None] = {}
+        for url in urls:
+            rules = fetcher.check_robots(url)
+            _print_verdict(url, rules.check(url, agent), explain)
+            delays[robots_url(url)] = rules.min_interval(agent)
+    for location, delay in delays.items():
+        shown = "none" if delay is None else f"{delay:g}"
+        suffix = f"\t{location}" if len(delays) > 1 else ""
+        typer.echo(f"crawl-delay\t{shown}{suffix}")
 
 
 def main() -> None:

@@ -28,6 +28,7 @@ __all__ = [
     "CacheLookup",
     "HttpCache",
     "StoredResponse",
+    "conditional_headers",
     "current_age",
     "forbids_stale",
     "freshness_lifetime",
@@ -245,7 +246,7 @@ def _identity(response: StoredResponse) -> tuple[tuple[str, ...], tuple[str | No
     return _vary_names(response), _vary_key(response, response.request_headers)
 
 
-def _conditional_headers(response: StoredResponse) -> dict[str, str]:
+def conditional_headers(response: StoredResponse) -> dict[str, str]:
     """Return the validators to send when revalidating ``response`` (RFC 9111 §4.3.1)."""
     conditions: dict[str, str] = {}
     etag = _field(response.headers, "etag")
@@ -289,7 +290,7 @@ def _select_for_304(initial: list[StoredResponse], headers: Headers) -> list[Sto
     if tag is not None or modified is not None:
         # Weak validators (W/ tags, and Last-Modified, weak unless proven strong) pick one.
         return sorted((r for r in initial if _weakly_matches(r, tag, modified)), key=_recency)[-1:]
-    if len(initial) == 1 and not _conditional_headers(initial[0]):
+    if len(initial) == 1 and not conditional_headers(initial[0]):
         return initial  # no validator on either side, and only one candidate
     return []
 
@@ -378,7 +379,7 @@ class HttpCache:
         )
         if not validate and lifetime > age:
             return CacheLookup("fresh", chosen, {}, age)
-        return CacheLookup("stale", chosen, _conditional_headers(chosen), age)
+        return CacheLookup("stale", chosen, conditional_headers(chosen), age)
 
     def lookup_any(
         self, method: str, url: str, request_headers: Mapping[str, str]

@@ -20,7 +20,9 @@ class FetchLimits:
     connect_timeout: float = 10.0
     read_timeout: float = 30.0  # between two received chunks
     total_timeout: float = 120.0  # one request, headers to last byte
-    max_redirects: int = 10  # RFC 9110 §15.4 asks for loop detection; a fixed cap plus a visited set
+    max_redirects: int = (
+        10  # RFC 9110 §15.4 asks for loop detection; a fixed cap plus a visited set
+    )
     robots_max_redirects: int = 5  # RFC 9309 §2.3.1.2: follow at least five
     robots_parse_limit: int = 512_000  # RFC 9309 §2.5: at least 500 KiB
     schemes: tuple[str, ...] = ("http", "https")

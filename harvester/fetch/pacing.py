@@ -62,7 +62,8 @@ class HostPacer:
         self,
         *,
         default_interval: float = DEFAULT_INTERVAL,
-        jitter: float = 0.05,
+        jitter: float = 0.02,
+        margin: float = 0.01,
         raise_factor: float = 2.0,
         decay: float = 0.9,
         max_interval: float = 300.0,
@@ -73,6 +74,10 @@ class HostPacer:
     ) -> None:
         self.default_interval = default_interval
         self.jitter = jitter  # a fraction of the interval, added at random to each gap
+        # Seconds added to every gap: the server sees a request start when it arrives, and a
+        # new connection (or a busy server thread) can make an earlier request arrive late,
+        # shrinking the gap the server measures below the one we kept.
+        self.margin = margin
         self.raise_factor = raise_factor
         self.decay = decay
         self.max_interval = max_interval
@@ -128,7 +133,8 @@ class HostPacer:
         """The clock reading before which the host's next request may not start."""
         if not state.starts:
             return state.hold_until
-        return max(state.starts[-1] + self._interval(state) * state.spread, state.hold_until)
+        gap = self._interval(state) * state.spread + (self.margin if state.base > 0 else 0.0)
+        return max(state.starts[-1] + gap, state.hold_until)
 
     def _check_paused(self, host: HostKey, state: _Host) -> None:
         if state.paused is not None:

@@ -1,0 +1,447 @@
+"""The fetcher: robots gate → host pacer → HTTP cache → the site, with retries and hard limits.
+
+One ``Fetcher`` per run. It identifies itself honestly (``harvester/<version> (+contact)`` and
+a ``From`` header for an e-mail contact), never fetches what robots.txt disallows, spaces
+requests per host, retries 429/503 and network errors (honouring Retry-After, else exponential
+back-off with jitter), pauses a host that keeps failing, and keeps a private RFC 9111 cache.
+The network layer is an httpx transport, so tests and replays can swap it.
+"""
+
+from __future__ import annotations
+
+import asyncio
+from dataclasses import dataclass
+from datetime import UTC, datetime
+from pathlib import Path
+from typing import Literal
+from urllib.parse import urljoin, urlsplit
+
+import httpx
+from tenacity import AsyncRetrying, RetryCallState, retry_if_exception_type, stop_after_attempt
+from tenacity.wait import wait_random_exponential
+
+from harvester.errors import FetchError, FetchLimitError, HttpStatusError, RobotsDisallowedError
+from harvester.fetch.cache import CacheLookup, HttpCache, StoredResponse, conditional_headers
+from harvester.fetch.capture import Capture, header
+from harvester.fetch.httpdate import parse_http_date, parse_retry_after
+from harvester.fetch.identity import Identity
+from harvester.fetch.limits import FetchLimits
+from harvester.fetch.pacing import DEFAULT_INTERVAL, HostPacer, describe, host_key
+from harvester.fetch.robots import RobotsTxt
+from harvester.fetch.robots_gate import RobotsAnswer, RobotsGate
+
+__all__ = ["FetchMode", "Fetcher"]
+
+FetchMode = Literal["normal", "offline", "refresh"]
+_REDIRECTS = frozenset({301, 302, 303, 307, 308})
+_RETRY_AFTER_CAP = 3600.0  # never wait longer than an hour on one Retry-After
+
+
+class _Transient(Exception):
+    """A failure worth retrying: 429, 503 (or other 5xx), a timeout, a dropped connection."""
+
+    def __init__(
+        self, url: str, reason: str, retry_after: float | None = None, status: int | None = None
+    ) -> None:
+        super().__init__(reason)
+        self.url = url
+        self.reason = reason
+        self.retry_after = retry_after
+        self.status = status
+
+
+@dataclass(frozen=True)
+class _Answer:
+    url: str
+    status: int
+    headers: tuple[tuple[str, str], ...]
+    body: bytes
+    request_time: datetime
+    response_time: datetime
+
+
+def _now() -> datetime:
+    return datetime.now(UTC)
+
+
+class Fetcher:
+    """Fetches pages politely; use ``async with Fetcher(...) as fetcher``."""
+
+    def __init__(
+        self,
+        identity: Identity,
+        *,
+        cache_dir: str | Path | None = None,
+        mode: FetchMode = "normal",
+        min_interval: float = 0.0,
+        limits: FetchLimits | None = None,
+        pacer: HostPacer | None = None,
+        transport: httpx.AsyncBaseTransport | None = None,
+        retries: int = 3,
+        backoff_initial: float = 1.0,
+        backoff_max: float = 60.0,
+        robots_on_429: Literal["unreachable", "unavailable"] = "unreachable",
+    ) -> None:
+        self.identity = identity
+        self.mode = mode
+        self.min_interval = min_interval  # the recipe's delay: raises Crawl-delay, never lowers
+        self.limits = limits or FetchLimits()
+        self.pacer = pacer or HostPacer()
+        self.retries = retries
+        # Exponential back-off with full jitter: a random wait up to initial × 2^attempt.
+        self._backoff = wait_random_exponential(multiplier=backoff_initial, max=backoff_max)
+        self.cache = HttpCache(Path(cache_dir) / "http") if cache_dir is not None else None
+        self._robots_store = None
+        if cache_dir is not None:
+            import diskcache
+
+            self._robots_store = diskcache.Cache(str(Path(cache_dir) / "robots"))
+        self.robots = RobotsGate(self._fetch_robots, store=self._robots_store, on_429=robots_on_429)
+        timeout = httpx.Timeout(
+            connect=self.limits.connect_timeout,
+            read=self.limits.read_timeout,
+            write=self.limits.read_timeout,
+            pool=self.limits.total_timeout,
+        )
+        self._client = httpx.AsyncClient(
+            transport=transport,
+            timeout=timeout,
+            follow_redirects=False,
+            headers=identity.headers(),
+            trust_env=False,  # no proxies from the environment: we talk to the site itself
+        )
+        self._intervals_set: set[tuple[str, str, int]] = set()
+
+    async def __aenter__(self) -> Fetcher:
+        return self
+
+    async def __aexit__(self, *exc: object) -> None:
+        await self.aclose()
+
+    async def aclose(self) -> None:
+        """Close the HTTP client and the caches."""
+        await self._client.aclose()
+        if self.cache is not None:
+            self.cache.close()
+        if self._robots_store is not None:
+            self._robots_store.close()
+
+    # -- the public call ---------------------------------------------------------------
+
+    async def fetch(self, url: str, *, immutable: bool = False) -> Capture:
+        """Fetch one page, from the cache when a fresh copy is there.
+
+        ``immutable`` marks a page that never changes (a past season): once cached it is
+        always fresh. Raises a FetchError subclass for anything that is not a usable page.
+        """
+        self._check_scheme(url)
+        request_headers = dict(self.identity.headers())
+        lookup = (
+            self.cache.lookup("GET", url, request_headers, _now())
+            if self.cache is not None
+            else CacheLookup("miss", None, {}, None)
+        )
+        if self.mode == "offline":
+            return self._offline(url, request_headers)
+        if lookup.response is not None and (
+            lookup.response.immutable or (lookup.state == "fresh" and self.mode == "normal")
+        ):
+            return self._from_cache(url, lookup.response)
+        conditional: dict[str, str] = {}
+        if lookup.response is not None:
+            # Stale entries come with their validators; --refresh revalidates fresh ones too.
+            conditional = dict(lookup.conditional_headers) or conditional_headers(lookup.response)
+        host = host_key(url)
+        try:
+            answer, hops = await self._with_retries(url, conditional)
+        except _Transient as failure:
+            self.pacer.failed(host_key(failure.url), failure.reason)
+            raise FetchError(
+                f"gave up after {self.retries + 1} attempts: {failure.reason}",
+                url=url,
+                hint="the site may be down or rate-limiting; try again later",
+            ) from None
+        self.pacer.succeeded(host)
+        if answer.status == 304 and lookup.response is not None and self.cache is not None:
+            refreshed = self.cache.freshen(
+                "GET", url, request_headers, self._stored(answer, request_headers, immutable)
+            )
+            stored = refreshed or lookup.response
+            return self._from_cache(url, stored, revalidated=True, hops=hops)
+        if not 200 <= answer.status < 300:
+            raise HttpStatusError(
+                f"HTTP {answer.status}",
+                url=url,
+                status=answer.status,
+                hint="the page is missing or refused; check the URL and the season",
+            )
+        if self.cache is not None:
+            self.cache.store("GET", self._stored(answer, request_headers, immutable, key=url))
+        return Capture(
+            url=url,
+            final_url=answer.url,
+            status=answer.status,
+            headers=answer.headers,
+            body=answer.body,
+            fetched_at=answer.request_time,
+            origin="live",
+            redirects=hops,
+        )
+
+    async def check_robots(self, url: str) -> RobotsTxt:
+        """The robots.txt rules for ``url``'s host (fetched politely if needed)."""
+        rules = await self.robots.rules(url)
+        self._apply_crawl_delay(url, rules)
+        return rules
+
+    # -- steps -------------------------------------------------------------------------
+
+    def _check_scheme(self, url: str) -> None:
+        scheme = urlsplit(url).scheme.lower()
+        if scheme not in self.limits.schemes:
+            allowed = " or ".join(f"{name}://" for name in self.limits.schemes)
+            raise FetchLimitError(
+                f"scheme {scheme or '(none)'!r} is not fetched",
+                url=url,
+                hint=f"use a URL starting with {allowed}",
+            )
+
+    def _offline(self, url: str, request_headers: dict[str, str]) -> Capture:
+        stored = (
+            self.cache.lookup_any("GET", url, request_headers) if self.cache is not None else None
+        )
+        if stored is None:
+            raise FetchError(
+                "not in the cache, and --offline forbids fetching it",
+                url=url,
+                hint="run once without --offline to fill the cache",
+            )
+        return self._from_cache(url, stored)
+
+    def _from_cache(
+        self,
+        url: str,
+        stored: StoredResponse,
+        *,
+        revalidated: bool = False,
+        hops: tuple[str, ...] = (),
+    ) -> Capture:
+        return Capture(
+            url=url,
+            final_url=stored.url,
+            status=stored.status,
+            headers=stored.headers,
+            body=stored.body,
+            fetched_at=stored.request_time,
+            origin="cache",
+            redirects=hops,
+            revalidated=revalidated,
+        )
+
+    def _stored(
+        self,
+        answer: _Answer,
+        request_headers: dict[str, str],
+        immutable: bool,
+        key: str | None = None,
+    ) -> StoredResponse:
+        return StoredResponse(
+            url=key or answer.url,
+            status=answer.status,
+            headers=answer.headers,
+            body=answer.body,
+            request_headers=tuple(request_headers.items()),
+            request_time=answer.request_time,
+            response_time=answer.response_time,
+            immutable=immutable,
+        )
+
+    def _apply_crawl_delay(self, url: str, rules: RobotsTxt) -> None:
+        host = host_key(url)
+        if host in self._intervals_set:
+            return
+        # Crawl-delay and Request-rate are not in RFC 9309 (common practice, no published
+        # source): the interval is the larger of the site's and the recipe's, never less.
+        site = rules.min_interval(self.identity.token)
+        self.pacer.set_interval(
+            host, max(site if site is not None else DEFAULT_INTERVAL, self.min_interval)
+        )
+        self._intervals_set.add(host)
+
+    async def _allowed(self, url: str) -> None:
+        rules = await self.check_robots(url)
+        verdict = rules.check(url, self.identity.token)
+        if not verdict.allowed:
+            rule = verdict.rule
+            why = verdict.reason
+            if rule is not None:
+                kind = "Allow" if rule.allow else "Disallow"
+                why = f"line {rule.line}, {kind}: {rule.pattern}"
+            raise RobotsDisallowedError(
+                f"robots.txt disallows it for {self.identity.token!r}: {why}",
+                url=url,
+                hint="robots.txt is the site's wish; leave this page out of the recipe",
+            )
+
+    def _wait(self, state: RetryCallState) -> float:
+        failure = state.outcome.exception() if state.outcome is not None else None
+        if isinstance(failure, _Transient) and failure.retry_after is not None:
+            return 0.0  # the pacer holds the host until Retry-After has passed
+        return float(self._backoff(state))
+
+    async def _with_retries(
+        self, url: str, conditional: dict[str, str]
+    ) -> tuple[_Answer, tuple[str, ...]]:
+        async for attempt in self._retrying():
+            with attempt:
+                return await self._follow(url, conditional)
+        raise AssertionError("unreachable: tenacity re-raises the last failure")
+
+    def _retrying(self) -> AsyncRetrying:
+        return AsyncRetrying(
+            stop=stop_after_attempt(self.retries + 1),
+            wait=self._wait,
+            retry=retry_if_exception_type(_Transient),
+            reraise=True,
+        )
+
+    async def _follow(
+        self, url: str, conditional: dict[str, str]
+    ) -> tuple[_Answer, tuple[str, ...]]:
+        """GET with redirects followed by hand, each hop robots-checked and paced."""
+        current, seen = url, {url}
+        hops: list[str] = []
+        for hop in range(self.limits.max_redirects + 1):
+            await self._allowed(current)
+            # RFC 9110 §15.4: validators are for the original URI only.
+            answer = await self._send(current, conditional if hop == 0 else {}, check_type=True)
+            location = header(answer.headers, "location")
+            if answer.status not in _REDIRECTS or not location:
+                return answer, tuple(hops)
+            target = urljoin(current, location.strip())
+            self._check_scheme(target)
+            if target in seen:
+                raise FetchLimitError(
+                    f"redirect loop: {' → '.join([*hops, current, target])}",
+                    url=url,
+                    hint="the site redirects in a circle; report it to the site",
+                )
+            hops.append(current)
+            seen.add(target)
+            current = target
+        raise FetchLimitError(
+            f"more than {self.limits.max_redirects} redirects",
+            url=url,
+            hint="the site redirects too often; check the URL",
+        )
+
+    async def _send(self, url: str, headers: dict[str, str], *, check_type: bool) -> _Answer:
+        """One paced GET with the hard limits; 429/503/5xx and network errors are transient."""
+        host = host_key(url)
+        async with self.pacer.slot(host):
+            request_time = _now()
+            try:
+                async with asyncio.timeout(self.limits.total_timeout):
+                    answer = await self._get(url, headers, request_time, check_type)
+            except (TimeoutError, httpx.TimeoutException) as exc:
+                raise _Transient(url, f"timed out ({type(exc).__name__})") from exc
+            except httpx.TransportError as exc:
+                raise _Transient(url, f"network error: {exc}") from exc
+        if answer.status in (429, 503):
+            received = answer.response_time
+            value = header(answer.headers, "retry-after")
+            date = header(answer.headers, "date")
+            retry_after = (
+                parse_retry_after(
+                    value,
+                    response_date=parse_http_date(date) if date else None,
+                    received_at=received,
+                    cap=_RETRY_AFTER_CAP,
+                )
+                if value
+                else None
+            )
+            self.pacer.back_off(host, retry_after)
+            reason = f"HTTP {answer.status} from {describe(host)}"
+            raise _Transient(url, reason, retry_after, answer.status)
+        if answer.status >= 500:
+            raise _Transient(
+                url, f"HTTP {answer.status} from {describe(host)}", None, answer.status
+            )
+        return answer
+
+    async def _get(
+        self, url: str, headers: dict[str, str], request_time: datetime, check_type: bool
+    ) -> _Answer:
+        async with self._client.stream("GET", url, headers=headers) as response:
+            status = response.status_code
+            if check_type and 200 <= status < 300:
+                self._check_content_type(url, response.headers.get("content-type"))
+            body = await self._read_body(url, response)
+            return _Answer(
+                url=url,
+                status=status,
+                headers=tuple(response.headers.multi_items()),
+                body=body,
+                request_time=request_time,
+                response_time=_now(),
+            )
+
+    def _check_content_type(self, url: str, content_type: str | None) -> None:
+        kind = (content_type or "").split(";", 1)[0].strip().lower()
+        if kind not in self.limits.content_types:
+            raise FetchLimitError(
+                f"expected an HTML page, got {content_type or 'no Content-Type'}",
+                url=url,
+                hint="point the recipe at the page that holds the table",
+            )
+
+    async def _read_body(self, url: str, response: httpx.Response) -> bytes:
+        limits = self.limits
+        declared = response.headers.get("content-length", "")
+        if declared.isdigit() and int(declared) > limits.max_body_bytes:
+            raise FetchLimitError(
+                f"body of {int(declared):,} bytes is over the {limits.max_body_bytes:,}-byte limit",
+                url=url,
+                hint="raise the limit only if the page really is that large",
+            )
+        chunks: list[bytes] = []
+        decoded = 0
+        async for chunk in response.aiter_bytes():
+            decoded += len(chunk)
+            if response.num_bytes_downloaded > limits.max_body_bytes:
+                raise FetchLimitError(
+                    f"body over the {limits.max_body_bytes:,}-byte limit; download stopped",
+                    url=url,
+                    hint="raise the limit only if the page really is that large",
+                )
+            if decoded > limits.max_decoded_bytes:
+                raise FetchLimitError(
+                    f"body inflates past {limits.max_decoded_bytes:,} bytes; "
+                    "stopped (a compression bomb?)",
+                    url=url,
+                    hint="the site sent a suspicious compressed body; report it",
+                )
+            chunks.append(chunk)
+        return b"".join(chunks)
+
+    async def _fetch_robots(self, location: str) -> RobotsAnswer:
+        """GET robots.txt, following up to five redirects (RFC 9309 §2.3.1.2)."""
+        current, seen = location, {location}
+        for _ in range(self.limits.robots_max_redirects + 1):
+            try:
+                # A 429 or 5xx on robots.txt is retried like any page before it counts.
+                async for attempt in self._retrying():
+                    with attempt:
+                        answer = await self._send(current, {}, check_type=False)
+            except _Transient as failure:
+                return RobotsAnswer(failure.status, detail=failure.reason)
+            target = header(answer.headers, "location")
+            if answer.status not in _REDIRECTS or not target:
+                return RobotsAnswer(answer.status, answer.body[: self.limits.robots_parse_limit])
+            current = urljoin(current, target.strip())
+            if current in seen or urlsplit(current).scheme not in self.limits.schemes:
+                return RobotsAnswer(None, detail="robots.txt redirects in a loop")
+            seen.add(current)
+        # §2.3.1.2: after more than five redirects it MAY be treated as unavailable.
+        return RobotsAnswer(404, detail="more than five redirects")
