@@ -1,12 +1,14 @@
 """Per-host pacing: spaced request starts, one request in flight, back-off and a circuit breaker.
 
-A host is the (scheme, host, port) triple, as RFC 9309 §2.3 keys robots.txt. For each host the
-pacer keeps the earliest time the next request may start. A request takes the host's slot
-(one in flight at a time), waits until that time, and on start pushes it on by the host's
-interval plus a small jitter — jitter only ever adds, so no two starts are ever closer than the
-interval. A 429 or 503 raises the interval (and honours Retry-After); successes let it decay
-slowly back to the base. After ``failure_limit`` consecutive failures the host is paused for the
-rest of the run, and every later request to it fails at once, while other hosts go on.
+A host is the (scheme, host, port) triple, as RFC 9309 §2.3 keys robots.txt. A request takes
+the host's slot (one in flight at a time) and starts no sooner than the host's interval (plus a
+small jitter, which only ever adds) after the previous request *finished*. Counting from the
+finish rather than the start is what makes the spacing hold on the server's clock too: the
+server sees a request arrive somewhere between our start and its finish, so only a gap after
+the finish guarantees the gap between two arrivals. A 429 or 503 raises the interval (and
+Retry-After is honoured); successes let it decay slowly back to the base. After
+``failure_limit`` consecutive failures the host is paused for the rest of the run, and every
+later request to it fails at once, while other hosts go on.
 """
 
 from __future__ import annotations
@@ -49,6 +51,7 @@ class _Host:
     raised: float = 0.0  # an interval forced by 429/503, decaying with successes
     hold_until: float = 0.0  # no start before this clock reading (Retry-After, back-off)
     spread: float = 1.0  # the jitter factor drawn at the last start
+    last_end: float | None = None  # when the last request on the host finished
     failures: int = 0
     paused: str | None = None
     lock: asyncio.Lock = field(default_factory=asyncio.Lock)
@@ -63,7 +66,6 @@ class HostPacer:
         *,
         default_interval: float = DEFAULT_INTERVAL,
         jitter: float = 0.02,
-        margin: float = 0.01,
         raise_factor: float = 2.0,
         decay: float = 0.9,
         max_interval: float = 300.0,
@@ -74,10 +76,6 @@ class HostPacer:
     ) -> None:
         self.default_interval = default_interval
         self.jitter = jitter  # a fraction of the interval, added at random to each gap
-        # Seconds added to every gap: the server sees a request start when it arrives, and a
-        # new connection (or a busy server thread) can make an earlier request arrive late,
-        # shrinking the gap the server measures below the one we kept.
-        self.margin = margin
         self.raise_factor = raise_factor
         self.decay = decay
         self.max_interval = max_interval
@@ -127,14 +125,16 @@ class HostPacer:
             start = self._clock()
             state.spread = 1.0 + self._random.uniform(0.0, self.jitter)
             state.starts.append(start)
-            yield start
+            try:
+                yield start
+            finally:
+                state.last_end = self._clock()
 
     def _earliest(self, state: _Host) -> float:
         """The clock reading before which the host's next request may not start."""
-        if not state.starts:
+        if state.last_end is None:
             return state.hold_until
-        gap = self._interval(state) * state.spread + (self.margin if state.base > 0 else 0.0)
-        return max(state.starts[-1] + gap, state.hold_until)
+        return max(state.last_end + self._interval(state) * state.spread, state.hold_until)
 
     def _check_paused(self, host: HostKey, state: _Host) -> None:
         if state.paused is not None:

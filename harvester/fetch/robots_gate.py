@@ -10,6 +10,7 @@ published source). Copies are reused for at most 24 hours (§2.4), in memory and
 
 from __future__ import annotations
 
+import asyncio
 import time
 from collections.abc import Awaitable, Callable
 from dataclasses import dataclass
@@ -66,10 +67,16 @@ class RobotsGate:
         self._on_429 = on_429
         self._clock = clock
         self._memory: dict[str, tuple[float, RobotsTxt]] = {}
+        self._locks: dict[str, asyncio.Lock] = {}
 
     async def rules(self, url: str) -> RobotsTxt:
         """The robots.txt rules that govern ``url`` (fetched if no copy is fresh)."""
         location = robots_url(url)
+        # One fetch per host even when many pages of it are asked for at once.
+        async with self._locks.setdefault(location, asyncio.Lock()):
+            return await self._rules(location)
+
+    async def _rules(self, location: str) -> RobotsTxt:
         now = self._clock()
         held = self._memory.get(location)
         if held is not None and now - held[0] <= self._max_age:

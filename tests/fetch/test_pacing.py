@@ -49,20 +49,21 @@ def test_host_key_is_scheme_host_port_with_default_ports() -> None:
 
 def test_starts_on_one_host_are_never_closer_than_the_interval() -> None:
     clock = FakeClock()
-    pace = pacer(clock, jitter=0.1, margin=0.01)
+    pace = pacer(clock, jitter=0.1)
     pace.set_interval(A, 0.5)
 
     async def many() -> None:
         for _ in range(10):
             async with pace.slot(A):
-                pass
+                await clock.sleep(0.25)  # the request takes a while
 
     run(many())
     starts = pace.starts(A)
     gaps = [later - earlier for earlier, later in itertools.pairwise(starts)]
     assert len(gaps) == 9
-    assert min(gaps) >= 0.5 + 0.01  # jitter and the safety margin only add
-    assert max(gaps) <= 0.5 * 1.1 + 0.01 + 1e-9
+    # Counted from the end of the previous request (0.25 s long), jitter only adding.
+    assert min(gaps) >= 0.25 + 0.5
+    assert max(gaps) <= 0.25 + 0.5 * 1.1 + 1e-9
 
 
 def test_one_request_in_flight_per_host() -> None:
