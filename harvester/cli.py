@@ -274,6 +274,13 @@ def demo(
         Path | None,
         typer.Option("--write-site", metavar="DIR", help="Write the demo pages to DIR and stop."),
     ] = None,
+    serve: Annotated[
+        bool, typer.Option("--serve", help="Serve the demo site on 127.0.0.1 until Ctrl-C.")
+    ] = False,
+    port: Annotated[int, typer.Option("--port", help="Port for --serve.")] = 8650,
+    crawl_delay: Annotated[
+        float, typer.Option("--crawl-delay", help="Crawl-delay the served robots.txt asks for.")
+    ] = 0.5,
 ) -> None:
     """Show what the demo recipes read from the invented league's pages.
 
@@ -281,6 +288,9 @@ def demo(
     """
     from harvester.demo.tour import run_tour, write_demo_site
 
+    if serve:
+        _serve_demo(port, crawl_delay)
+        return
     try:
         if write_site is not None:
             written = write_demo_site(write_site)
@@ -311,7 +321,11 @@ def robots(
     ] = AGENT_TOKEN,
     contact: Annotated[
         str | None,
-        typer.Option("--contact", help="Your e-mail or URL, sent when fetching robots.txt."),
+        typer.Option(
+            "--contact",
+            help="Your e-mail or URL, sent when fetching (default: HARVESTER_CONTACT or the "
+            "config file).",
+        ),
     ] = None,
     explain: Annotated[
         bool, typer.Option("--explain", help="Add the deciding rule as a third column.")
@@ -350,10 +364,11 @@ def _print_verdict(url: str, verdict: Verdict, explain: bool) -> None:
 
 
 def _robots_live(urls: list[str], agent: str, contact: str | None, explain: bool) -> None:
+    from harvester.config import configured_contact
     from harvester.fetch.identity import Identity
     from harvester.fetch.sync import SyncFetcher
 
-    identity = Identity.from_contact(contact, where="--contact")
+    identity = Identity.from_contact(contact or configured_contact(), where="--contact")
     with SyncFetcher(identity) as fetcher:
         delays: dict[str, float | None] = {}
         for url in urls:
@@ -364,6 +379,27 @@ def _robots_live(urls: list[str], agent: str, contact: str | None, explain: bool
         shown = "none" if delay is None else f"{delay:g}"
         suffix = f"\t{location}" if len(delays) > 1 else ""
         typer.echo(f"crawl-delay\t{shown}{suffix}")
+
+
+def _serve_demo(port: int, crawl_delay: float) -> None:
+    import time
+
+    from harvester.demo.server import DemoServer
+
+    try:
+        site = DemoServer(port=port, crawl_delay=crawl_delay).start()
+    except (HarvesterError, OSError) as error:
+        _usage(f"cannot serve on 127.0.0.1:{port} ({error}) — pick another --port")
+    typer.echo(
+        f"demo site on {site.base_url} (robots.txt Crawl-delay {crawl_delay:g} s); Ctrl-C stops"
+    )
+    try:
+        while True:
+            time.sleep(3600)
+    except KeyboardInterrupt:
+        pass
+    finally:
+        site.stop()
 
 
 def main() -> None:

@@ -96,3 +96,28 @@ def test_demo_writes_the_site(tmp_path: Path) -> None:
     result = CliRunner().invoke(app, ["demo", "--write-site", str(tmp_path)])
     assert result.exit_code == 0
     assert (tmp_path / "seasons" / "2026" / "players.html").is_file()
+
+
+def test_demo_serve_runs_a_loopback_site_until_stopped() -> None:
+    import signal
+    import subprocess
+    import sys
+
+    import httpx
+
+    script = Path(sys.executable).with_name("harvester")
+    with subprocess.Popen(
+        [str(script), "demo", "--serve", "--port", "0", "--crawl-delay", "0.1"],
+        stdout=subprocess.PIPE,
+        text=True,
+    ) as process:
+        try:
+            assert process.stdout is not None
+            base = process.stdout.readline().split()[3]
+            assert base.startswith("http://127.0.0.1:")
+            robots = httpx.get(f"{base}/robots.txt", timeout=5)
+            assert "Crawl-delay: 0.1" in robots.text
+        finally:
+            process.send_signal(signal.SIGINT)
+            process.wait(timeout=10)
+    assert process.returncode == 0

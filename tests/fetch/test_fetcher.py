@@ -261,3 +261,25 @@ def test_only_http_and_https(demo_site: DemoServer) -> None:
     with fetcher() as client, pytest.raises(FetchLimitError, match="scheme 'file'"):
         client.fetch("file:///etc/passwd")
     assert demo_site.log == []
+
+
+def test_a_slow_answer_times_out_and_is_retried(demo_site_factory: Factory) -> None:
+    site = demo_site_factory(slow={PLAYERS: 2.0})
+    limits = FetchLimits(read_timeout=0.3, total_timeout=0.5)
+    # The server logs a request when it answers, which it never does here; the message counts.
+    with fetcher(limits=limits, retries=1) as client, pytest.raises(FetchError) as caught:
+        client.fetch(site.url(PLAYERS))
+    assert "gave up after 2 attempts: timed out" in str(caught.value)
+
+
+def test_the_declared_charset_reaches_the_extractor(demo_site: DemoServer) -> None:
+    from harvester import TableRule, extract_table, read_page
+
+    with fetcher() as client:
+        capture = client.fetch(demo_site.url(STANDINGS))
+    assert capture.charset == "utf-8"  # from Content-Type (RFC 9110 §8.3.2)
+    page = read_page(capture.body, capture.final_url, capture.charset)
+    table = extract_table(page, TableRule(select="table#standings", group_rows="column")).table
+    # 10 clubs; the U+2212 minus in goal difference survives the trip as a negative number.
+    assert table.num_rows == 10
+    assert min(table.column("gd").to_pylist()) < 0
