@@ -1,0 +1,373 @@
+"""Commit harvested tables to the archive as new versions of their partitions, atomically.
+
+Commit protocol (under the archive lock; see ``layout`` for the paths):
+  1. n = 1 + the highest version whose ``part-0.parquet`` exists;
+  2. make ``version=<n>/``, removing a leftover one first (it holds no ``part-0.parquet``, so it
+     is debris of a crashed run);
+  3. write ``version=<n>/.part-0.parquet.inprogress``, then fsync it;
+  4. rename it to ``part-0.parquet`` (POSIX rename(): readers see no file or the whole file);
+  5. fsync the folders, so the new name survives a power cut.
+A version is visible iff its ``part-0.parquet`` exists, and then it is complete. fsync is done
+only on the local disk (``LocalFileSystem``, or a ``SubTreeFileSystem`` over it); on object
+stores the rename is a copy and atomicity is only as good as the store's.
+
+A commit whose data columns and their types equal the latest version (same
+``harvester.data_sha256``) writes nothing ("unchanged"). Otherwise the drift from the latest
+version (and the row bounds) is checked against the drift policy before version n+1 is written.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+from datetime import date, datetime
+from types import TracebackType
+from typing import Literal
+
+import pyarrow as pa
+import pyarrow.fs as pafs
+import pyarrow.parquet as pq
+
+from harvester.errors import StoreError
+from harvester.store.drift import DriftReport, compare
+from harvester.store.layout import (
+    INPROGRESS_FILE,
+    PART_FILE,
+    Partition,
+    join,
+    local_path,
+    open_root,
+    parse_version,
+    partition_path,
+    version_dir,
+)
+from harvester.store.lock import ArchiveLock, now_rfc3339
+
+__all__ = [
+    "COMMITTED_AT_KEY",
+    "DATA_SHA256_KEY",
+    "PROVENANCE_COLUMNS",
+    "PROVENANCE_KEY",
+    "ArchiveWriter",
+    "CommitResult",
+    "DriftPolicy",
+    "data_sha256",
+]
+
+DriftPolicy = Literal["refuse", "warn", "accept"]
+
+DATA_SHA256_KEY = "harvester.data_sha256"
+COMMITTED_AT_KEY = "harvester.committed_at"
+PROVENANCE_KEY = "harvester.provenance"
+
+_UTC_US = pa.timestamp("us", tz="UTC")
+PROVENANCE_COLUMNS: dict[str, pa.DataType] = {
+    "_source_url": pa.string(),
+    "_final_url": pa.string(),
+    "_captured_at": _UTC_US,
+    "_capture_origin": pa.string(),
+    "_memento_datetime": _UTC_US,
+    "_http_status": pa.int32(),
+    "_body_sha256": pa.string(),
+    "_recipe": pa.string(),
+    "_recipe_sha256": pa.string(),
+    "_harvester_version": pa.string(),
+    "_table_selector": pa.string(),
+    "_source_row": pa.int32(),
+}
+"""The provenance columns every file carries after its data columns, in this order."""
+
+_POLICIES = ("refuse", "warn", "accept")
+
+
+def data_sha256(table: pa.Table) -> str:
+    """Hex SHA-256 of the Arrow IPC stream of the table's data columns (not "_"-prefixed)."""
+    names = [name for name in table.column_names if not name.startswith("_")]
+    data = table.select(names).replace_schema_metadata(None).combine_chunks()
+    sink = pa.BufferOutputStream()
+    with pa.ipc.new_stream(sink, data.schema) as stream:
+        stream.write_table(data)
+    return hashlib.sha256(sink.getvalue().to_pybytes()).hexdigest()
+
+
+@dataclass(frozen=True)
+class CommitResult:
+    """What one commit did; ``message`` is its line in the run summary."""
+
+    dataset: str
+    table: str
+    partition: tuple[tuple[str, str | int | None], ...]
+    status: Literal["new", "unchanged", "refused"]
+    version: int  # the new version, or the latest one when unchanged/refused (0 if none)
+    rows: int
+    path: str | None  # the file written (None when unchanged/refused)
+    drift: DriftReport | None  # None for the first version unless its row bounds failed
+    message: str
+
+
+class ArchiveWriter:
+    """The one writer of an archive: takes ``<root>/.lock`` on enter and commits versions.
+
+    ``root`` is a local folder, a ``file://`` URI or any URI pyarrow.fs opens; with
+    ``filesystem`` it is a path inside that filesystem (e.g. a ``SubTreeFileSystem``).
+    """
+
+    def __init__(self, root: str, *, filesystem: pafs.FileSystem | None = None) -> None:
+        self.root = root
+        self.filesystem, self._base = open_root(root, filesystem)
+        self._lock = ArchiveLock(self.filesystem, self._base, root)
+        self._held = False
+        self.took_over: str | None = None
+        """Set on enter when a stale lock was taken over: says whose."""
+
+    def __enter__(self) -> ArchiveWriter:
+        self.took_over = self._lock.acquire()
+        self._held = True
+        return self
+
+    def __exit__(
+        self,
+        exc_type: type[BaseException] | None,
+        exc: BaseException | None,
+        tb: TracebackType | None,
+    ) -> None:
+        self._held = False
+        self._lock.release()
+
+    def commit(
+        self,
+        dataset: str,
+        table: str,
+        partition: Partition,
+        data: pa.Table,
+        *,
+        provenance: Mapping[str, object],
+        key: Sequence[str] = (),
+        drift_policy: DriftPolicy = "refuse",
+        min_rows: int | None = None,
+        max_rows: int | None = None,
+    ) -> CommitResult:
+        """Write ``data`` as the next version of the partition, unless unchanged or refused."""
+        if not self._held:
+            raise StoreError(
+                f"archive {self.root}: commit outside the writer's lock",
+                hint="use `with ArchiveWriter(root) as writer:` and commit inside the block",
+            )
+        if drift_policy not in _POLICIES:
+            raise StoreError(
+                f"drift policy {drift_policy!r} is not one of {', '.join(_POLICIES)}",
+                hint="set [store] drift to refuse, warn or accept",
+            )
+        part = tuple(partition)
+        folder = join(self._base, partition_path(dataset, table, part))
+        where = _where(dataset, table, part)
+        arranged = _arrange(data, part, key, where)
+        sha = data_sha256(arranged)
+
+        def result(
+            status: Literal["new", "unchanged", "refused"],
+            version: int,
+            message: str,
+            path: str | None = None,
+            drift: DriftReport | None = None,
+        ) -> CommitResult:
+            rows = arranged.num_rows
+            return CommitResult(dataset, table, part, status, version, rows, path, drift, message)
+
+        latest = self._latest_version(folder)
+        previous: pa.Table | None = None
+        if latest:
+            with self.filesystem.open_input_file(join(folder, version_dir(latest), PART_FILE)) as f:
+                stored = (pq.read_schema(f).metadata or {}).get(DATA_SHA256_KEY.encode())
+                if stored == sha.encode():
+                    return result(
+                        "unchanged",
+                        latest,
+                        message=f"{where}: unchanged, checked against version {latest}",
+                    )
+                previous = pq.read_table(f)
+        report = compare(previous, arranged, min_rows=min_rows, max_rows=max_rows)
+        drifted = report.changed or bool(report.row_problems)
+        shown = report if previous is not None or drifted else None
+        if drifted and drift_policy == "refuse":
+            kept = f"version {latest} kept" if latest else "nothing written"
+            return result(
+                "refused",
+                latest,
+                drift=shown,
+                message=f"{where}: refused, {report.summary()}; {kept} (drift policy refuse)",
+            )
+        version = latest + 1
+        committed_at = now_rfc3339()
+        meta = {
+            DATA_SHA256_KEY: sha,
+            COMMITTED_AT_KEY: committed_at,
+            PROVENANCE_KEY: _provenance_json(
+                provenance, arranged, dataset, table, part, version, committed_at, key, where
+            ),
+        }
+        path = self._publish(
+            folder, version, arranged.replace_schema_metadata(meta), fresh=not latest
+        )
+        message = f"{where}: version {version} written, {arranged.num_rows} rows"
+        if drifted and drift_policy == "warn":
+            message += f"; {report.summary()} (drift policy warn)"
+        return result("new", version, path=path, drift=shown, message=message)
+
+    def _latest_version(self, folder: str) -> int:
+        """The highest version of the partition whose part-0.parquet exists (0 if none)."""
+        listing = self.filesystem.get_file_info(pafs.FileSelector(folder, allow_not_found=True))
+        found = sorted(
+            n
+            for info in listing
+            if info.type == pafs.FileType.Directory and (n := parse_version(info.base_name))
+        )
+        parts = self.filesystem.get_file_info(
+            [join(folder, version_dir(n), PART_FILE) for n in found]
+        )
+        visible = [
+            n for n, info in zip(found, parts, strict=True) if info.type == pafs.FileType.File
+        ]
+        return max(visible, default=0)
+
+    def _publish(self, folder: str, version: int, table: pa.Table, *, fresh: bool) -> str:
+        """Steps 2-5 of the commit protocol; returns the path of the published file."""
+        fs = self.filesystem
+        vdir = join(folder, version_dir(version))
+        if fs.get_file_info(vdir).type != pafs.FileType.NotFound:
+            fs.delete_dir(vdir)  # no part-0.parquet in it (n is past the highest visible)
+        fs.create_dir(vdir, recursive=True)
+        staging, final = join(vdir, INPROGRESS_FILE), join(vdir, PART_FILE)
+        with fs.open_output_stream(staging, compression=None) as out:
+            pq.write_table(table, out)
+        local = local_path(fs, staging)
+        if local is not None:
+            _fsync(local)
+        fs.move(staging, final)
+        # The new name lives in version=<n>/, that folder's name in the partition folder; a first
+        # version also made the folders above it, up to the archive root.
+        folders = [vdir]
+        here = folder
+        while True:
+            folders.append(here)
+            if not fresh or here == self._base or "/" not in here:
+                break
+            here = here.rsplit("/", 1)[0]
+        for each in folders:
+            on_disk = local_path(fs, each)
+            if on_disk is not None:
+                _fsync(on_disk)
+        return final
+
+
+def _fsync(path: str) -> None:
+    """fsync a local file or folder (a folder's fsync makes its new entries durable)."""
+    fd = os.open(path, os.O_RDONLY)
+    try:
+        os.fsync(fd)
+    finally:
+        os.close(fd)
+
+
+def _where(dataset: str, table: str, partition: Partition) -> str:
+    shown = ", ".join(f"{k}={'null' if v is None else v}" for k, v in partition)
+    return f"{dataset}/{table}" + (f" [{shown}]" if shown else "")
+
+
+def _arrange(data: pa.Table, partition: Partition, key: Sequence[str], where: str) -> pa.Table:
+    """Check the columns and put them in archive order: data columns, then provenance."""
+    if not isinstance(data, pa.Table):
+        raise StoreError(f"{where}: data is a {type(data).__name__}, not a pyarrow.Table")
+    names = data.column_names
+    repeated = sorted({n for n in names if names.count(n) > 1})
+    if repeated:
+        raise StoreError(f"{where}: column(s) {', '.join(repeated)} appear more than once")
+    unknown = [n for n in names if n.startswith("_") and n not in PROVENANCE_COLUMNS]
+    if unknown:
+        raise StoreError(
+            f"{where}: unknown provenance column(s) {', '.join(unknown)}",
+            hint="data column names may not start with '_'; rename them in the recipe",
+        )
+    missing = [n for n in PROVENANCE_COLUMNS if n not in names]
+    if missing:
+        raise StoreError(
+            f"{where}: data lacks provenance column(s) {', '.join(missing)}",
+            hint="the harvest run adds all 12 provenance columns before committing",
+        )
+    for name, wanted in PROVENANCE_COLUMNS.items():
+        if data.schema.field(name).type != wanted:
+            raise StoreError(
+                f"{where}: provenance column {name} is {data.schema.field(name).type},"
+                f" expected {wanted}",
+                hint="build the provenance columns with the archive's types",
+            )
+    columns = [n for n in names if not n.startswith("_")]
+    clash = [n for n in columns if n == "version" or n in {k for k, _ in partition}]
+    if clash:
+        raise StoreError(
+            f"{where}: data column(s) {', '.join(clash)} share a name with a partition key or"
+            " the version column a reader adds",
+            hint="rename the column in the recipe",
+        )
+    absent = [k for k in key if k not in columns]
+    if absent:
+        raise StoreError(
+            f"{where}: key column(s) {', '.join(absent)} are not data columns",
+            hint="name data columns of the table as its key",
+        )
+    return data.select([*columns, *PROVENANCE_COLUMNS])
+
+
+def _json_default(value: object) -> object:
+    if isinstance(value, datetime):
+        return value.isoformat(timespec="microseconds").replace("+00:00", "Z")
+    if isinstance(value, date):
+        return value.isoformat()
+    if isinstance(value, set | frozenset):
+        return sorted(value, key=str)
+    raise TypeError(f"{type(value).__name__} is not JSON")
+
+
+def _provenance_json(
+    given: Mapping[str, object],
+    table: pa.Table,
+    dataset: str,
+    name: str,
+    partition: Partition,
+    version: int,
+    committed_at: str,
+    key: Sequence[str],
+    where: str,
+) -> str:
+    """The ``harvester.provenance`` JSON: the caller's fields, the writer's own, and defaults."""
+    if "run_id" not in given:
+        raise StoreError(f"{where}: provenance has no run_id", hint="pass the harvest run's id")
+
+    def distinct(column: str) -> list[object]:
+        return [v for v in table.column(column).unique().to_pylist() if v is not None]
+
+    body: dict[str, object] = {
+        "recipe": next(iter(distinct("_recipe")), None),
+        "recipe_sha256": next(iter(distinct("_recipe_sha256")), None),
+        "harvester_version": next(iter(distinct("_harvester_version")), None),
+        "source_urls": distinct("_source_url"),
+        **given,
+        # The writer's own fields win over anything the caller passed under the same name.
+        "dataset": dataset,
+        "table": name,
+        "partition": {k: v for k, v in partition},
+        "version": version,
+        "committed_at": committed_at,
+        "key": list(key),
+        "rows": table.num_rows,
+    }
+    try:
+        return json.dumps(body, ensure_ascii=False, sort_keys=True, default=_json_default)
+    except (TypeError, ValueError) as err:
+        raise StoreError(
+            f"{where}: provenance cannot be written as JSON: {err}",
+            hint="pass provenance values that are text, numbers, lists, dicts or datetimes",
+        ) from None
