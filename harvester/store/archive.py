@@ -1,0 +1,416 @@
+"""Read the versioned Parquet archive: list versions; read the latest or an earlier one.
+
+The layout and the file contents are fixed by the archive contract (docs/archive.md):
+``<root>/tables/<dataset>/<table>/<key>=<value>/…/version=<n>/part-0.parquet``. This module only
+reads; it knows nothing of how versions are written, except that a version is visible exactly when
+its ``part-0.parquet`` exists (the writer renames that name into place last).
+
+Every path operation goes through a ``pyarrow.fs`` filesystem, so the root may be a local folder or
+any URI ``pyarrow.fs.FileSystem.from_uri`` understands (``s3://bucket/prefix``, ``file:///…``).
+"""
+
+from __future__ import annotations
+
+import json
+import re
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass
+from datetime import datetime
+from typing import TYPE_CHECKING, Any
+
+import pyarrow as pa
+import pyarrow.fs as pafs
+import pyarrow.parquet as pq
+
+from harvester.errors import StoreError
+from harvester.store.layout import (
+    PART_FILE,
+    TABLES_DIR,
+    decode_value,
+    open_root,
+    parse_version,
+)
+
+if TYPE_CHECKING:
+    import pandas  # type: ignore[import-untyped]
+
+__all__ = ["Archive", "VersionInfo"]
+
+_DATASET = re.compile(r"[a-z0-9][a-z0-9_-]*")  # recipe names (STORE.md, "Layout")
+_TABLE = re.compile(r"[a-z0-9_]+")  # table names (STORE.md, "Layout")
+_KEY = re.compile(r"[a-z][a-z0-9_]*")  # recipe parameter names (harvester.recipe_parameters)
+_INTEGER = re.compile(r"-?[0-9]+")
+_COMMITTED_AT = b"harvester.committed_at"
+_DATA_SHA256 = b"harvester.data_sha256"
+_PROVENANCE = b"harvester.provenance"
+_DAMAGED = "the file is damaged or not harvester's; move its version folder out of the archive"
+
+Partition = tuple[tuple[str, str | None], ...]
+
+
+@dataclass(frozen=True)
+class VersionInfo:
+    """One published version of one partition of a table, as its Parquet footer describes it."""
+
+    dataset: str
+    table: str
+    partition: Partition  # (key, decoded value) pairs in directory order; None for a null value
+    version: int
+    path: str  # in the archive's filesystem: a local path, or "bucket/key…" for s3:// and the like
+    rows: int
+    committed_at: datetime  # aware, UTC
+    data_sha256: str
+
+
+@dataclass(frozen=True)
+class _Found:
+    """A visible ``part-0.parquet`` found by listing, before its footer is read."""
+
+    table: str
+    partition: Partition
+    version: int
+    fs_path: str  # the path as the filesystem knows it (VersionInfo.path)
+    shown: str  # the path as messages give it: under the user's URI for a URI root
+
+
+class Archive:
+    """The read side of an archive rooted at a local path or a ``pyarrow.fs`` URI."""
+
+    def __init__(self, root: str) -> None:
+        self.root = root
+        self._fs, base = open_root(root)  # the same reading of a root as the writer's
+        self._local = isinstance(self._fs, pafs.LocalFileSystem)
+        self._base = base.rstrip("/")
+        # Paths shown to users keep the user's URI (host included) rather than the bare path.
+        self._shown_base = self._base if self._local else root.split("?", 1)[0].rstrip("/")
+        self._tables = f"{self._base}/{TABLES_DIR}"
+
+    def datasets(self) -> list[str]:
+        """The datasets that hold at least one visible version, sorted."""
+        return sorted({dataset for dataset, _ in self._scan_tables()})
+
+    def tables(self, dataset: str) -> list[str]:
+        """The tables of ``dataset`` that hold at least one visible version, sorted."""
+        _check_name("dataset", dataset, _DATASET)
+        names = sorted({found.table for found in self._scan(dataset)})
+        if not names:
+            raise self._unknown_dataset(dataset)
+        return names
+
+    def versions(self, dataset: str, table: str | None = None) -> list[VersionInfo]:
+        """Every visible version of ``dataset`` (or one table): sorted by table, partition, version.
+
+        Only footers are read (rows, ``harvester.committed_at``, ``harvester.data_sha256``).
+        """
+        found = self._found(dataset, table)
+        return [self._info(dataset, item) for item in found]
+
+    def read(
+        self,
+        dataset: str,
+        table: str,
+        *,
+        as_of: datetime | None = None,
+        where: Mapping[str, str | int] | None = None,
+        version: int | None = None,
+    ) -> pa.Table:
+        """One version of each matching partition as one table, plus partition columns and version.
+
+        By default the latest version of each partition; with ``as_of`` (an aware datetime) the
+        latest one committed at or before it (partitions with none are left out); with ``version``
+        that version of each partition that has it. ``where`` keeps partitions whose value equals
+        the given one, compared as text. Schemas that differ between files are unified by column
+        name; a column a file lacks reads as null.
+        """
+        if as_of is not None and version is not None:
+            raise StoreError(
+                f"read {dataset}/{table}: both as_of and version were given",
+                hint="give one of them: as_of picks per partition, version names one version",
+            )
+        if as_of is not None and as_of.utcoffset() is None:
+            raise StoreError(
+                f"read {dataset}/{table}: as_of {as_of.isoformat()} has no time zone",
+                hint="pass an aware datetime, e.g. datetime(2026, 3, 1, tzinfo=timezone.utc)",
+            )
+        found = self._found(dataset, table)
+        keys = _keys(found)
+        for key in where or {}:
+            if key not in keys:
+                listed = ", ".join(keys) if keys else "none: the table is not partitioned"
+                raise StoreError(
+                    f"read {dataset}/{table}: {key!r} is not a partition key",
+                    hint=f"its partition keys: {listed}",
+                )
+        wanted = {key: str(value) for key, value in (where or {}).items()}
+        matching = [
+            item
+            for item in found
+            if all(dict(item.partition).get(k) == v for k, v in wanted.items())
+        ]
+        if version is not None:
+            chosen = [item for item in matching if item.version == version]
+        elif as_of is not None:
+            chosen = _latest(
+                item for item in matching if self._info(dataset, item).committed_at <= as_of
+            )
+        else:
+            chosen = _latest(matching)
+        if not chosen:
+            # Same columns as a normal read, so callers need no special case for "nothing yet".
+            return self._empty(f"{dataset}/{table}", _latest(matching) or _latest(found), keys)
+        parts = [self._read_file(item) for item in chosen]
+        return _combine(dataset, table, parts, keys)
+
+    def read_pandas(
+        self,
+        dataset: str,
+        table: str,
+        *,
+        as_of: datetime | None = None,
+        where: Mapping[str, str | int] | None = None,
+        version: int | None = None,
+    ) -> pandas.DataFrame:
+        """``read`` as a pandas DataFrame (Arrow's own conversion: timestamps stay tz-aware)."""
+        return self.read(dataset, table, as_of=as_of, where=where, version=version).to_pandas()
+
+    def _scan_tables(self) -> set[tuple[str, str]]:
+        """(dataset, table) pairs that hold a visible version, from one recursive listing."""
+        parsed = (_parse(rel, fs_path, fs_path) for rel, fs_path in self._list_parts(self._tables))
+        return {(found[0], found[1].table) for found in parsed if found is not None}
+
+    def _scan(self, dataset: str, table: str | None = None) -> list[_Found]:
+        found: list[_Found] = []
+        under = f"{dataset}/{table}" if table else dataset  # list only what is asked for
+        for rel, fs_path in self._list_parts(f"{self._tables}/{under}"):
+            parsed = _parse(f"{under}/{rel}", fs_path, self._shown(fs_path))
+            if parsed is not None:
+                found.append(parsed[1])
+        found.sort(key=lambda item: (item.table, _partition_order(item.partition), item.version))
+        return found
+
+    def _list_parts(self, prefix: str) -> Iterable[tuple[str, str]]:
+        """(path relative to ``prefix``, full path) of every ``part-0.parquet`` below ``prefix``."""
+        selector = pafs.FileSelector(prefix, recursive=True, allow_not_found=True)
+        try:
+            infos = self._fs.get_file_info(selector)
+        except (OSError, pa.ArrowInvalid) as exc:
+            raise StoreError(
+                f"archive {self.root}: cannot list {prefix}: {exc}",
+                hint="check the root path and your access to it",
+            ) from exc
+        for info in infos:
+            # Staged files are dot-prefixed and end in .inprogress, so only finished files match.
+            is_part = info.type == pafs.FileType.File and info.base_name == PART_FILE
+            if is_part and info.path.startswith(prefix + "/"):
+                yield info.path[len(prefix) + 1 :], info.path
+
+    def _found(self, dataset: str, table: str | None) -> list[_Found]:
+        _check_name("dataset", dataset, _DATASET)
+        if table is not None:
+            _check_name("table", table, _TABLE)
+        found = self._scan(dataset, table)
+        if not found:
+            listed = ", ".join(self.tables(dataset))  # raises if the dataset is unknown
+            raise StoreError(
+                f"archive {self.root}: dataset {dataset!r} has no table {table!r}",
+                hint=f"its tables: {listed}",
+            )
+        return found
+
+    def _unknown_dataset(self, dataset: str) -> StoreError:
+        names = self.datasets()
+        hint = (
+            f"datasets in the archive: {', '.join(names)}"
+            if names
+            else f"no published version under {self._shown_base}/{TABLES_DIR} yet"
+        )
+        return StoreError(f"archive {self.root}: no dataset {dataset!r}", hint=hint)
+
+    def _shown(self, fs_path: str) -> str:
+        return fs_path if self._local else self._shown_base + fs_path[len(self._base) :]
+
+    def _footer(self, item: _Found) -> pq.FileMetaData:
+        try:
+            return pq.read_metadata(item.fs_path, filesystem=self._fs)
+        except (OSError, pa.ArrowInvalid) as exc:
+            raise StoreError(f"{item.shown}: cannot read the footer: {exc}", hint=_DAMAGED) from exc
+
+    def _info(self, dataset: str, item: _Found) -> VersionInfo:
+        meta = self._footer(item)
+        kv: dict[bytes, bytes] = meta.metadata or {}
+        for key in (_COMMITTED_AT, _DATA_SHA256):
+            if key not in kv:
+                raise StoreError(f"{item.shown}: no {key.decode()} in the footer", hint=_DAMAGED)
+        try:
+            committed_at = datetime.fromisoformat(kv[_COMMITTED_AT].decode())
+            if committed_at.utcoffset() is None:
+                raise ValueError("it has no UTC offset")
+        except (UnicodeDecodeError, ValueError) as exc:
+            raise StoreError(
+                f"{item.shown}: harvester.committed_at is not an RFC 3339 time: {exc}",
+                hint=_DAMAGED,
+            ) from exc
+        return VersionInfo(
+            dataset=dataset,
+            table=item.table,
+            partition=item.partition,
+            version=item.version,
+            path=item.fs_path,
+            rows=meta.num_rows,
+            committed_at=committed_at,
+            data_sha256=kv[_DATA_SHA256].decode(),
+        )
+
+    def _read_file(self, item: _Found) -> tuple[_Found, pa.Table, dict[str, Any]]:
+        """The file's table (no partition columns) and the "partition" object of its provenance."""
+        try:
+            with self._fs.open_input_file(item.fs_path) as handle:
+                data = pq.ParquetFile(handle).read()
+        except (OSError, pa.ArrowInvalid) as exc:
+            raise StoreError(f"{item.shown}: cannot read: {exc}", hint=_DAMAGED) from exc
+        return item, data, _provenance_partition(data.schema.metadata)
+
+    def _empty(self, name: str, latest: list[_Found], keys: list[str]) -> pa.Table:
+        """An empty table with the columns the latest versions would give."""
+        schemas = [self._footer(item).schema.to_arrow_schema() for item in latest]
+        provenance = [_provenance_partition(schema.metadata) for schema in schemas]
+        fields = list(_unify(name, schemas, keys))
+        fields += [pa.field(key, _key_type(key, provenance)) for key in keys]
+        fields.append(pa.field("version", pa.int32()))
+        return pa.schema(fields).empty_table()
+
+
+def _check_name(kind: str, name: str, pattern: re.Pattern[str]) -> None:
+    if not pattern.fullmatch(name):
+        raise StoreError(
+            f"invalid {kind} name {name!r}",
+            hint="dataset names are recipe names ([a-z0-9][a-z0-9_-]*); table names are [a-z0-9_]+",
+        )
+
+
+def _parse(rel: str, fs_path: str, shown: str) -> tuple[str, _Found] | None:
+    """``<dataset>/<table>/<k>=<v>/…/version=<n>/part-0.parquet`` → its parts; None if not one."""
+    segments = rel.split("/")
+    if len(segments) < 4 or segments[-1] != PART_FILE:
+        return None
+    dataset, table, *middle, version_segment, _ = segments
+    version = parse_version(version_segment)
+    if version is None or not _DATASET.fullmatch(dataset) or not _TABLE.fullmatch(table):
+        return None
+    partition: list[tuple[str, str | None]] = []
+    for segment in middle:
+        key, sep, raw = segment.partition("=")
+        if not sep or not _KEY.fullmatch(key):
+            return None  # not part of the layout (a hand-made or staging folder): not a version
+        partition.append((key, decode_value(raw)))
+    return dataset, _Found(table, tuple(partition), version, fs_path, shown)
+
+
+def _partition_order(partition: Partition) -> tuple[tuple[str, int, int, str], ...]:
+    """Sort key: integers numerically, then text, then null (so 9 sorts before 10)."""
+    order = []
+    for key, value in partition:
+        if value is None:
+            order.append((key, 2, 0, ""))
+        elif _INTEGER.fullmatch(value):
+            order.append((key, 0, int(value), ""))
+        else:
+            order.append((key, 1, 0, value))
+    return tuple(order)
+
+
+def _latest(items: Iterable[_Found]) -> list[_Found]:
+    """The highest version of each (table, partition) among ``items``, in listing order."""
+    best: dict[tuple[str, Partition], _Found] = {}
+    for item in items:
+        slot = (item.table, item.partition)
+        if slot not in best or item.version > best[slot].version:
+            best[slot] = item
+    return sorted(best.values(), key=lambda item: (item.table, _partition_order(item.partition)))
+
+
+def _keys(found: list[_Found]) -> list[str]:
+    keys: list[str] = []
+    for item in found:
+        keys += [key for key, _ in item.partition if key not in keys]
+    return keys
+
+
+def _provenance_partition(metadata: Mapping[bytes, bytes] | None) -> dict[str, Any]:
+    """The ``partition`` object of ``harvester.provenance``, or {} when absent or unreadable."""
+    raw = (metadata or {}).get(_PROVENANCE)
+    if raw is None:
+        return {}
+    try:
+        provenance = json.loads(raw)
+    except ValueError:
+        return {}
+    partition = provenance.get("partition") if isinstance(provenance, dict) else None
+    return partition if isinstance(partition, dict) else {}
+
+
+def _key_type(key: str, provenance: list[dict[str, Any]]) -> pa.DataType:
+    """int64 when every file's provenance gives an int for ``key`` (STORE.md), else string."""
+
+    def is_int(value: object) -> bool:
+        return isinstance(value, int) and not isinstance(value, bool)  # JSON true is not a number
+
+    if provenance and all(is_int(one.get(key)) for one in provenance):
+        return pa.int64()
+    return pa.string()
+
+
+def _unify(name: str, schemas: list[pa.Schema], keys: list[str]) -> pa.Schema:
+    """Union of the files' columns by name: data columns first, then ``_`` provenance columns."""
+    try:
+        unified = pa.unify_schemas(
+            [schema.remove_metadata() for schema in schemas], promote_options="permissive"
+        )
+    except (pa.ArrowInvalid, pa.ArrowTypeError) as exc:
+        raise StoreError(
+            f"{name}: the versions read have incompatible column types: {exc}",
+            hint="read the partitions separately (where=...) or pick one version",
+        ) from exc
+    clash = sorted(set(unified.names) & {*keys, "version"})
+    if clash:
+        raise StoreError(
+            f"{name}: data column {clash[0]!r} has the name of a column the reader adds"
+            " (a partition key or version)",
+            hint="rename that column in the recipe and harvest again",
+        )
+    data = [field for field in unified if not field.name.startswith("_")]
+    provenance = [field for field in unified if field.name.startswith("_")]
+    return pa.schema(data + provenance)
+
+
+def _combine(
+    dataset: str, table: str, parts: list[tuple[_Found, pa.Table, dict[str, Any]]], keys: list[str]
+) -> pa.Table:
+    schema = _unify(f"{dataset}/{table}", [data.schema for _, data, _ in parts], keys)
+    types = {key: _key_type(key, [prov for _, _, prov in parts]) for key in keys}
+    pieces = []
+    for item, data, _ in parts:
+        rows = data.num_rows
+        columns = [
+            data.column(field.name).cast(field.type)
+            if field.name in data.column_names
+            else pa.nulls(rows, field.type)
+            for field in schema
+        ]
+        values = dict(item.partition)
+        for key in keys:
+            value = values.get(key)
+            if value is not None and types[key] == pa.int64():
+                if not _INTEGER.fullmatch(value):
+                    raise StoreError(
+                        f"{item.shown}: folder value {key}={value!r} is not the integer its "
+                        "harvester.provenance gives",
+                        hint=_DAMAGED,
+                    )
+                columns.append(pa.array([int(value)] * rows, pa.int64()))
+            else:
+                columns.append(pa.array([value] * rows, types[key]))
+        columns.append(pa.array([item.version] * rows, pa.int32()))
+        names = [*schema.names, *keys, "version"]
+        pieces.append(pa.Table.from_arrays(columns, names=names))
+    return pa.concat_tables(pieces)
