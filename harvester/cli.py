@@ -10,11 +10,13 @@ import dataclasses
 import sys
 from enum import StrEnum
 from pathlib import Path
-from typing import Annotated, NoReturn
+from typing import Annotated
 
 import typer
 
 from harvester import __version__
+from harvester.cli_exits import fail, usage
+from harvester.cli_store import diff_command, versions_command
 from harvester.errors import HarvesterError
 from harvester.extract.rules import TableRule
 from harvester.extract.table import extract_grid, extract_table, read_page
@@ -64,16 +66,6 @@ class OutputFormat(StrEnum):
     parquet = "parquet"
 
 
-def _fail(error: HarvesterError) -> NoReturn:
-    typer.echo(f"error: {error}", err=True)
-    raise typer.Exit(error.exit_code)
-
-
-def _usage(message: str) -> NoReturn:
-    typer.echo(f"error: {message}", err=True)
-    raise typer.Exit(2)
-
-
 def _version(value: bool) -> None:
     if value:
         typer.echo(f"harvester {__version__}")
@@ -96,7 +88,7 @@ def _read_input(path: str) -> bytes:
     try:
         return Path(path).read_bytes()
     except OSError as exc:
-        _usage(f"{path}: cannot read the file ({exc.strerror}) — check the path")
+        usage(f"{path}: cannot read the file ({exc.strerror}) — check the path")
 
 
 def _rule_for(
@@ -114,12 +106,12 @@ def _rule_for(
         if table is None:
             if len(loaded.tables) != 1:
                 names = ", ".join(t.rule.name for t in loaded.tables)
-                _usage(f"{recipe}: the recipe has several tables ({names}) — add --table NAME")
+                usage(f"{recipe}: the recipe has several tables ({names}) — add --table NAME")
             rule = loaded.tables[0].rule
         else:
             rule = loaded.table(table)
     elif table is not None:
-        _usage("--table needs --recipe — add --recipe RECIPE.toml")
+        usage("--table needs --recipe — add --recipe RECIPE.toml")
     else:
         rule = TableRule()
     return dataclasses.replace(
@@ -172,9 +164,9 @@ def extract(
     """
     chosen = output_format or (OutputFormat.table if sys.stdout.isatty() else OutputFormat.csv)
     if chosen is OutputFormat.parquet and out is None:
-        _usage("--format parquet writes a file — add --out PATH")
+        usage("--format parquet writes a file — add --out PATH")
     if grid and chosen is OutputFormat.parquet:
-        _usage("--grid prints text slots — use --format csv, json or table")
+        usage("--grid prints text slots — use --format csv, json or table")
     data = _read_input(file)
     source = "<stdin>" if file == "-" else file
     try:
@@ -191,7 +183,7 @@ def extract(
             return
         result = extract_table(page, rule, base_url=base_url)
     except HarvesterError as error:
-        _fail(error)
+        fail(error)
     if chosen is OutputFormat.csv:
         table_to_csv(result.table, sys.stdout)
     elif chosen is OutputFormat.json:
@@ -217,7 +209,7 @@ def _overrides(pairs: list[str] | None) -> dict[str, str]:
     for pair in pairs or []:
         name, equals, value = pair.partition("=")
         if not equals or not name.strip():
-            _usage(f"--set {pair!r} is not NAME=VALUE — write e.g. --set season=2024")
+            usage(f"--set {pair!r} is not NAME=VALUE — write e.g. --set season=2024")
         overrides[name.strip()] = value.strip()
     return overrides
 
@@ -246,7 +238,7 @@ def check(
         loaded = load_recipe(recipe, _overrides(set_values))
         plan = loaded.plan(every_value=every_value)
     except HarvesterError as error:
-        _fail(error)
+        fail(error)
     if output_format is PlanFormat.json:
         import json
 
@@ -264,12 +256,82 @@ def check(
         typer.echo(f"{page.url}\t{', '.join(page.tables)}")
 
 
+class ModeOption(StrEnum):
+    """How ``harvest`` uses the HTTP cache."""
+
+    normal = "normal"
+    offline = "offline"
+    refresh = "refresh"
+
+
+@app.command()
+def harvest(
+    recipe: Annotated[Path, typer.Argument(metavar="RECIPE", help="A recipe file (TOML).")],
+    archive: Annotated[
+        str, typer.Option("--archive", metavar="ROOT", help="Archive root: a path or a URI.")
+    ] = "archive",
+    set_values: Annotated[
+        list[str] | None,
+        typer.Option("--set", metavar="NAME=VALUE", help="Override site or a parameter."),
+    ] = None,
+    every_value: Annotated[
+        bool, typer.Option("--all", help="Every parameter value, not just the current one.")
+    ] = False,
+    contact: Annotated[
+        str | None, typer.Option("--contact", help="Your e-mail or URL (overrides the recipe).")
+    ] = None,
+    offline: Annotated[
+        bool, typer.Option("--offline", help="Use only the cache; fetch nothing.")
+    ] = False,
+    refresh: Annotated[
+        bool, typer.Option("--refresh", help="Revalidate every cached page.")
+    ] = False,
+    output_format: Annotated[
+        PlanFormat, typer.Option("--format", "-f", help="text or json (JSON lines).")
+    ] = PlanFormat.text,
+) -> None:
+    """Harvest a recipe's tables politely into the archive, one line per table.
+
+    Each table is fetched, read and stored as a new version of its partition, or left as it is
+    when nothing changed. A table that fails is reported and touches nothing. Exit status 1 when
+    any table failed or was refused.
+
+    Example: harvester harvest recipes/league-players.toml --set site=http://127.0.0.1:8650
+    """
+    from harvester.fetch.client import FetchMode
+    from harvester.recipe import load_recipe
+    from harvester.run import harvest as run_harvest
+    from harvester.run import summary
+
+    if offline and refresh:
+        usage("--offline and --refresh contradict each other — pick one")
+    mode: FetchMode = "offline" if offline else "refresh" if refresh else "normal"
+    try:
+        loaded = load_recipe(recipe, _overrides(set_values))
+        report = run_harvest(
+            loaded, archive=archive, contact=contact, mode=mode, every_value=every_value
+        )
+    except HarvesterError as error:
+        fail(error)
+    if output_format is PlanFormat.json:
+        typer.echo(report.to_json_lines(), nl=False)
+    else:
+        for outcome in report.outcomes:
+            typer.echo(outcome.line())
+        typer.echo(f"run {report.run_id}: {summary(report.outcomes)} (report in {archive}/runs/)")
+    if report.failed:
+        raise typer.Exit(1)
+
+
 @app.command()
 def demo(
     season: Annotated[
-        int | None, typer.Option("--season", help="Season to show (default: the current one).")
+        int | None, typer.Option("--season", help="Season to harvest (default: the current one).")
     ] = None,
-    rows: Annotated[int, typer.Option("--rows", help="Rows to show per table.")] = 8,
+    archive: Annotated[
+        str, typer.Option("--archive", metavar="ROOT", help="Archive root to harvest into.")
+    ] = "archive",
+    rows: Annotated[int, typer.Option("--rows", help="Rows to show per table.")] = 5,
     write_site: Annotated[
         Path | None,
         typer.Option("--write-site", metavar="DIR", help="Write the demo pages to DIR and stop."),
@@ -282,11 +344,15 @@ def demo(
         float, typer.Option("--crawl-delay", help="Crawl-delay the served robots.txt asks for.")
     ] = 0.5,
 ) -> None:
-    """Show what the demo recipes read from the invented league's pages.
+    """Harvest the invented league from its loopback site into an archive, and read it back.
 
-    Example: harvester demo --season 2024
+    Starts the demo site on 127.0.0.1, runs recipes/league-*.toml against it (robots.txt,
+    pacing, cache, extraction, versioned Parquet), prints one line per table, then reads the
+    archive back. Run it twice: the second run finds nothing changed.
+
+    Example: harvester demo --archive /tmp/league-archive
     """
-    from harvester.demo.tour import run_tour, write_demo_site
+    from harvester.demo.tour import run_demo, write_demo_site
 
     if serve:
         _serve_demo(port, crawl_delay)
@@ -296,17 +362,41 @@ def demo(
             written = write_demo_site(write_site)
             typer.echo(f"wrote {len(written)} pages of the demo site under {write_site}")
             return
-        stops = run_tour(season)
+        typer.echo("harvesting the demo league from a loopback site (invented data) …")
+        done = run_demo(archive, season)
     except HarvesterError as error:
-        _fail(error)
-    for stop in stops:
-        table = stop.result.table
-        title = (
-            f"{stop.recipe} · {stop.result.name} ({stop.result.selector}) from {stop.path} — "
-            f"{table.num_rows} rows × {table.num_columns} columns"
-        )
-        shown = [list(row.values()) for row in table_rows(table.slice(0, rows))]
-        table_to_rich(shown, table.column_names, sys.stdout, title=title)
+        fail(error)
+    typer.echo(f"demo site was {done.site}; archive: {archive}")
+    for report in done.reports:
+        for outcome in report.outcomes:
+            typer.echo(outcome.line())
+    _show_archive(archive, rows, season)
+    if any(report.failed for report in done.reports):
+        raise typer.Exit(1)
+
+
+def _show_archive(archive: str, rows: int, season: int | None) -> None:
+    import pyarrow.compute as pc
+
+    from harvester.store.archive import Archive
+
+    store = Archive(archive)
+    for dataset in store.datasets():
+        for name in store.tables(dataset):
+            table = store.read(dataset, name)
+            if season is not None and "season" in table.column_names:
+                table = table.filter(pc.equal(table.column("season"), season))
+            data = [n for n in table.column_names if not n.startswith("_")]
+            shown = [list(row.values()) for row in table_rows(table.select(data).slice(0, rows))]
+            title = f"{dataset}/{name} — {table.num_rows} rows (latest versions), first {rows}"
+            table_to_rich(shown, data, sys.stdout, title=title)
+    typer.echo(
+        "read the latest versions without harvester (docs/archive.md), e.g.:\n"
+        '  duckdb -c "SELECT * FROM read_parquet('
+        f"'{archive}/tables/league-standings/standings/*/version=*/part-0.parquet', "
+        "hive_partitioning=true, hive_types={'season': BIGINT, 'version': BIGINT}, "
+        'union_by_name=true) QUALIFY version = max(version) OVER (PARTITION BY season)"'
+    )
 
 
 @app.command()
@@ -349,7 +439,7 @@ def robots(
     try:
         _robots_live(urls, agent, contact, explain)
     except HarvesterError as error:
-        _fail(error)
+        fail(error)
 
 
 def _print_verdict(url: str, verdict: Verdict, explain: bool) -> None:
@@ -389,7 +479,7 @@ def _serve_demo(port: int, crawl_delay: float) -> None:
     try:
         site = DemoServer(port=port, crawl_delay=crawl_delay).start()
     except (HarvesterError, OSError) as error:
-        _usage(f"cannot serve on 127.0.0.1:{port} ({error}) — pick another --port")
+        usage(f"cannot serve on 127.0.0.1:{port} ({error}) — pick another --port")
     typer.echo(
         f"demo site on {site.base_url} (robots.txt Crawl-delay {crawl_delay:g} s); Ctrl-C stops"
     )
@@ -400,6 +490,10 @@ def _serve_demo(port: int, crawl_delay: float) -> None:
         pass
     finally:
         site.stop()
+
+
+app.command(name="versions")(versions_command)
+app.command(name="diff")(diff_command)
 
 
 def main() -> None:

@@ -1,34 +1,36 @@
-"""The demo tour: read the invented league's current-season tables with the demo recipes.
+"""The demo: harvest the invented league from its loopback site into an archive, read it back.
 
-No network yet: pages are rendered in memory by the generator and passed to the extractor, so
-the tour shows what a recipe's table rules make of each page. (The loopback demo server and real
-fetching arrive with the fetcher.)
+``run_demo`` starts the demo site on 127.0.0.1 (port 8650, the demo recipes' own ``site``, when
+it is free), runs the three demo recipes against it exactly as a user would run a recipe
+against a real site — robots.txt, pacing, cache, extraction, versioned Parquet — and stops it.
 """
 
 from __future__ import annotations
 
+import socket
 from dataclasses import dataclass
 from pathlib import Path
-from urllib.parse import urlsplit
 
 from harvester.demo.league import build_league
-from harvester.demo.pages import render_page, write_site
+from harvester.demo.pages import write_site
+from harvester.demo.server import LOOPBACK, DemoServer
 from harvester.errors import HarvesterError
-from harvester.extract.table import ExtractedTable, extract_table
 from harvester.recipe import load_recipe
+from harvester.run import RunReport, harvest
 
-__all__ = ["DEMO_RECIPES", "TourStop", "demo_recipe_dir", "run_tour", "write_demo_site"]
+__all__ = ["DEMO_PORT", "DEMO_RECIPES", "DemoRun", "demo_recipe_dir", "run_demo", "write_demo_site"]
 
 DEMO_RECIPES = ("league-players.toml", "league-contracts.toml", "league-standings.toml")
+DEMO_PORT = 8650  # the port the demo recipes name in their site
 
 
 @dataclass(frozen=True)
-class TourStop:
-    """One table of the tour: which recipe and page it came from, and what was read."""
+class DemoRun:
+    """What a demo run did: where the site was, and each recipe's run report."""
 
-    recipe: str
-    path: str
-    result: ExtractedTable
+    site: str
+    archive: str
+    reports: tuple[RunReport, ...]
 
 
 def demo_recipe_dir() -> Path:
@@ -42,26 +44,29 @@ def demo_recipe_dir() -> Path:
     return folder
 
 
-def run_tour(season: int | None = None, recipe_dir: Path | None = None) -> list[TourStop]:
-    """Extract every table of the demo recipes from the generated pages of one season."""
-    league = build_league()
-    folder = recipe_dir or demo_recipe_dir()
-    stops: list[TourStop] = []
-    for file_name in DEMO_RECIPES:
-        overrides = {"season": str(season)} if season is not None else None
-        recipe = load_recipe(folder / file_name, overrides)
-        for page in recipe.plan():
-            path = urlsplit(page.url).path
-            html = render_page(league, path)
-            if html is None:
-                raise HarvesterError(
-                    f"demo site has no page {path}",
-                    hint=f"pick a season from {league.seasons[0].year} to {league.latest}",
-                )
-            for name in page.tables:
-                result = extract_table(html, recipe.table(name), base_url=page.url, source=path)
-                stops.append(TourStop(recipe.name, path, result))
-    return stops
+def _free(port: int) -> bool:
+    with socket.socket() as probe:
+        try:
+            probe.bind((LOOPBACK, port))
+        except OSError:
+            return False
+    return True
+
+
+def run_demo(
+    archive: str = "archive", season: int | None = None, crawl_delay: float = 0.2
+) -> DemoRun:
+    """Serve the demo site, harvest every demo recipe into ``archive``, stop the site."""
+    folder = demo_recipe_dir()
+    port = DEMO_PORT if _free(DEMO_PORT) else 0
+    with DemoServer(port=port, crawl_delay=crawl_delay) as site:
+        reports = []
+        for file_name in DEMO_RECIPES:
+            overrides = {"site": site.base_url}
+            if season is not None:
+                overrides["season"] = str(season)
+            reports.append(harvest(load_recipe(folder / file_name, overrides), archive=archive))
+        return DemoRun(site.base_url, archive, tuple(reports))
 
 
 def write_demo_site(directory: Path) -> list[Path]:

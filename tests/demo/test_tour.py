@@ -1,39 +1,50 @@
-"""The demo tour end to end: demo recipes → generated pages → extractor.
+"""The demo end to end: demo recipes → loopback demo site → polite fetch → archive.
 
 Expected values come from the league's data model (harvester/demo/league.py), never from the
-extractor's own output.
+code under test.
 """
 
 from __future__ import annotations
 
 from pathlib import Path
 
+import pyarrow.parquet as pq
 import pytest
 from typer.testing import CliRunner
 
 from harvester.cli import app
 from harvester.demo.league import build_league
-from harvester.demo.tour import TourStop, run_tour
+from harvester.demo.tour import DemoRun, run_demo
+
+
+def latest(root: Path, dataset: str, table: str) -> list[dict[str, object]]:
+    """Rows of the only version of the 2026 partition, read with pyarrow (not our reader)."""
+    path = root / "tables" / dataset / table / "season=2026" / "version=1" / "part-0.parquet"
+    return pq.read_table(path).to_pylist()
 
 
 @pytest.fixture(scope="module")
-def stops() -> dict[str, TourStop]:
-    return {stop.result.name: stop for stop in run_tour(2024)}
+def demo_archive(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, DemoRun]:
+    root = tmp_path_factory.mktemp("archive")
+    return root, run_demo(str(root), crawl_delay=0.02)
 
 
-def test_every_demo_table_is_read(stops: dict[str, TourStop]) -> None:
-    assert sorted(stops) == ["advanced", "contracts", "players", "standings"]
-    assert {stop.path for stop in stops.values()} == {
-        "/seasons/2024/players.html",
-        "/seasons/2024/contracts.html",
-        "/seasons/2024/standings.html",
-    }
+def test_every_demo_table_is_harvested(demo_archive: tuple[Path, DemoRun]) -> None:
+    _, done = demo_archive
+    outcomes = [(o.dataset, o.table, o.status) for r in done.reports for o in r.outcomes]
+    assert outcomes == [
+        ("league-players", "players", "new"),
+        ("league-players", "advanced", "new"),
+        ("league-contracts", "contracts", "new"),
+        ("league-standings", "standings", "new"),
+    ]
+    assert done.site.startswith("http://127.0.0.1:")
 
 
-def test_players_match_the_league_model(stops: dict[str, TourStop]) -> None:
-    season = build_league().season(2024)
-    table = stops["players"].result.table
-    by_id = {row["player_id"]: row for row in table.to_pylist()}
+def test_players_match_the_league_model(demo_archive: tuple[Path, DemoRun]) -> None:
+    root, _ = demo_archive
+    season = build_league().season(2026)
+    by_id = {row["player_id"]: row for row in latest(root, "league-players", "players")}
     # One row per player: repeated header rows and the tfoot totals row are gone.
     assert set(by_id) == {p.player_id for p in season.players}
     for expected in season.players:
@@ -44,32 +55,31 @@ def test_players_match_the_league_model(stops: dict[str, TourStop]) -> None:
         assert row["player_flags"] == ("*" if expected.captain else None)
 
 
-def test_advanced_table_comes_from_inside_a_comment(stops: dict[str, TourStop]) -> None:
-    result = stops["advanced"].result
-    assert result.in_comment
-    assert result.table.num_rows == len(build_league().season(2024).players)
+def test_contract_salaries_are_numbers_and_unknown_is_null(
+    demo_archive: tuple[Path, DemoRun],
+) -> None:
+    root, _ = demo_archive
+    season = build_league().season(2026)
+    rows = latest(root, "league-contracts", "contracts")
 
+    def order(value: object) -> tuple[bool, float]:
+        return (value is None, float(value) if isinstance(value, int | float) else 0.0)
 
-def test_contract_salaries_are_numbers_and_unknown_is_null(stops: dict[str, TourStop]) -> None:
-    season = build_league().season(2024)
-    salaries = sorted(
-        (row["salary"] for row in stops["contracts"].result.table.to_pylist()),
-        key=lambda value: (value is None, value),
-    )
+    salaries = sorted((row["salary"] for row in rows), key=order)
     expected = sorted(
-        (float(c.salary) if c.salary is not None else None for c in season.contracts),
-        key=lambda value: (value is None, value),
+        (float(c.salary) if c.salary is not None else None for c in season.contracts), key=order
     )
     assert salaries == expected
 
 
 def test_standings_keep_the_conference_and_signed_goal_difference(
-    stops: dict[str, TourStop],
+    demo_archive: tuple[Path, DemoRun],
 ) -> None:
+    root, _ = demo_archive
     league = build_league()
-    season = league.season(2024)
+    season = league.season(2026)
     conference = {club.code: club.conference for club in league.clubs}
-    rows = stops["standings"].result.table.to_pylist()
+    rows = latest(root, "league-standings", "standings")
     assert len(rows) == len(season.standings)
     by_club = {row["club_code"]: row for row in rows}
     for standing in season.standings:
@@ -79,17 +89,25 @@ def test_standings_keep_the_conference_and_signed_goal_difference(
         assert row["pts"] == standing.points
 
 
-def test_demo_command_prints_every_table() -> None:
-    result = CliRunner().invoke(app, ["demo", "--season", "2024", "--rows", "2"])
+def outcome_lines(stdout: str) -> list[list[str]]:
+    statuses = ("new\t", "unchanged\t", "refused\t", "failed\t")
+    return [line.split("\t")[:2] for line in stdout.splitlines() if line.startswith(statuses)]
+
+
+def test_demo_command_harvests_and_reads_back(tmp_path: Path) -> None:
+    tables = [
+        "league-players/players",
+        "league-players/advanced",
+        "league-contracts/contracts",
+        "league-standings/standings",
+    ]
+    result = CliRunner().invoke(app, ["demo", "--archive", str(tmp_path), "--rows", "2"])
     assert result.exit_code == 0, result.stderr
-    for name in ("players", "advanced", "contracts", "standings"):
-        assert f"· {name} (" in result.stdout
-
-
-def test_demo_rejects_a_season_the_league_never_played() -> None:
-    result = CliRunner().invoke(app, ["demo", "--season", "1999"])
-    assert result.exit_code != 0
-    assert "1999" in result.stderr and result.stderr.count("\n") == 1
+    assert outcome_lines(result.stdout) == [["new", table] for table in tables]
+    assert "read_parquet(" in result.stdout  # shows how to read it without harvester
+    again = CliRunner().invoke(app, ["demo", "--archive", str(tmp_path), "--rows", "2"])
+    assert again.exit_code == 0, again.stderr
+    assert outcome_lines(again.stdout) == [["unchanged", table] for table in tables]
 
 
 def test_demo_writes_the_site(tmp_path: Path) -> None:
