@@ -51,7 +51,11 @@ class Outcome:
         """One human line for the run summary."""
         where = ",".join(f"{k}={v}" for k, v in self.partition.items()) or "-"
         detail = f"{self.rows} rows, version {self.version}" if self.status != "failed" else ""
-        parts = [self.status, f"{self.dataset}/{self.table}", where, detail, self.url, self.message]
+        # The store's message repeats table and partition; it is worth a column only when it
+        # says why (a failure, a refusal) or warns (drift).
+        worth = self.status in ("failed", "refused") or "drift" in self.message
+        parts = [self.status, f"{self.dataset}/{self.table}", where, detail, self.url]
+        parts.append(self.message if worth else "")
         return "\t".join(part for part in parts if part)
 
 

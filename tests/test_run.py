@@ -161,3 +161,20 @@ def test_cache_modes_reach_the_fetcher(demo_site: DemoServer, tmp_path: Path, fl
         assert requests == []
     else:
         assert [record.status for record in requests] == [304]
+
+
+def test_refused_drift_keeps_the_archive_and_fails_the_run(
+    demo_site: DemoServer, tmp_path: Path
+) -> None:
+    # The standings page has 10 clubs; a recipe that demands at least 50 rows refuses it.
+    text = (RECIPES / "league-standings.toml").read_text(encoding="utf-8")
+    strict = tmp_path / "strict.toml"
+    strict.write_text(text + "\n[store]\nmin_rows = 50\n", encoding="utf-8")
+    loaded = load_recipe(strict, {"site": demo_site.base_url})
+    assert loaded.store.min_rows == 50
+    report = harvest(loaded, archive=str(tmp_path / "archive"))
+    (outcome,) = report.outcomes
+    assert outcome.status == "refused"
+    assert "min_rows" in outcome.message and "refused" in outcome.line()
+    assert report.failed
+    assert parquet_files(tmp_path / "archive") == []
