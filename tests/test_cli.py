@@ -144,9 +144,11 @@ def test_parquet_output_is_readable_by_duckdb(page: Path, tmp_path: Path) -> Non
     )
     assert code == 0
     # DuckDB as an independent Parquet reader.
-    rows = duckdb.sql(
-        f"SELECT player, shooting_goals, salary FROM read_parquet('{target}') ORDER BY player"
-    ).fetchall()
+    rows = (
+        duckdb.connect()
+        .sql(f"SELECT player, shooting_goals, salary FROM read_parquet('{target}') ORDER BY player")
+        .fetchall()
+    )
     assert rows == [
         ("Ada Vorne", 1250, 1250000.0),
         ("Bo Kelstrom", -12, 900.0),

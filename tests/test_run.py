@@ -81,10 +81,14 @@ def test_a_changed_page_becomes_version_2(demo_site_factory: Factory, tmp_path: 
     report = harvest(players, archive=str(tmp_path))
     statuses = {o.table: (o.status, o.version) for o in report.outcomes}
     assert statuses["players"] == ("new", 2)
-    rows = duckdb.sql(
-        f"SELECT version, count(*) FROM read_parquet('{tmp_path}/tables/league-players/players/"
-        "*/*/part-0.parquet', hive_partitioning=true) GROUP BY version ORDER BY version"
-    ).fetchall()
+    rows = (
+        duckdb.connect()
+        .sql(
+            f"SELECT version, count(*) FROM read_parquet('{tmp_path}/tables/league-players/players/"
+            "*/*/part-0.parquet', hive_partitioning=true) GROUP BY version ORDER BY version"
+        )
+        .fetchall()
+    )
     assert [version for version, _ in rows] == [1, 2]
 
 

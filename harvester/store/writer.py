@@ -32,6 +32,7 @@ import pyarrow.fs as pafs
 import pyarrow.parquet as pq
 
 from harvester.errors import StoreError
+from harvester.provenance import PROVENANCE_FIELDS
 from harvester.store.drift import DriftReport, compare
 from harvester.store.layout import (
     INPROGRESS_FILE,
@@ -63,21 +64,8 @@ DATA_SHA256_KEY = "harvester.data_sha256"
 COMMITTED_AT_KEY = "harvester.committed_at"
 PROVENANCE_KEY = "harvester.provenance"
 
-_UTC_US = pa.timestamp("us", tz="UTC")
-PROVENANCE_COLUMNS: dict[str, pa.DataType] = {
-    "_source_url": pa.string(),
-    "_final_url": pa.string(),
-    "_captured_at": _UTC_US,
-    "_capture_origin": pa.string(),
-    "_memento_datetime": _UTC_US,
-    "_http_status": pa.int32(),
-    "_body_sha256": pa.string(),
-    "_recipe": pa.string(),
-    "_recipe_sha256": pa.string(),
-    "_harvester_version": pa.string(),
-    "_table_selector": pa.string(),
-    "_source_row": pa.int32(),
-}
+# The archive contract's provenance columns (harvester/provenance.py is their one definition).
+PROVENANCE_COLUMNS: dict[str, pa.DataType] = {field.name: field.type for field in PROVENANCE_FIELDS}
 """The provenance columns every file carries after its data columns, in this order."""
 
 _POLICIES = ("refuse", "warn", "accept")

@@ -133,7 +133,9 @@ def check_archive(root: Path) -> dict[int, int]:
     glob = f"{(root / 'tables').as_posix()}/**/*.parquet"
     # DuckDB's glob matches no staging file (REFERENCES §7.2: it does not skip dot files, but
     # ".inprogress" does not end in ".parquet")
-    globbed = sorted(f for (f,) in duckdb.execute("SELECT file FROM glob(?)", [glob]).fetchall())
+    globbed = sorted(
+        f for (f,) in duckdb.connect().execute("SELECT file FROM glob(?)", [glob]).fetchall()
+    )
     assert globbed == visible
     if not visible:
         return {}
@@ -148,7 +150,9 @@ def check_archive(root: Path) -> dict[int, int]:
         run = int(prov["run_id"].removeprefix("run-"))
         table = pq.read_table(path)  # reads every page: a torn file would raise here
         assert table.column("n").to_pylist() == expected_n(run, prov["seq"])
-        (count,) = duckdb.execute("SELECT count(*) FROM read_parquet(?)", [path]).fetchone() or (0,)
+        (count,) = duckdb.connect().execute(
+            "SELECT count(*) FROM read_parquet(?)", [path]
+        ).fetchone() or (0,)
         assert count == table.num_rows
         found = re.search(r"/p=(\d+)/version=(\d+)/part-0\.parquet$", path)
         assert found is not None
@@ -159,7 +163,7 @@ def check_archive(root: Path) -> dict[int, int]:
     for partition, numbers in versions.items():
         assert sorted(numbers) == list(range(1, len(numbers) + 1)), f"gap in p={partition}"
     # DuckDB reads the whole table at once without tripping over anything half-written
-    (rows,) = duckdb.execute(
+    (rows,) = duckdb.connect().execute(
         "SELECT count(*) FROM read_parquet(?, hive_partitioning=true)", [glob]
     ).fetchone() or (0,)
     assert rows == total

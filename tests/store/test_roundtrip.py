@@ -111,7 +111,8 @@ def test_types_survive_duckdb(tmp_path: Path) -> None:
     store(tmp_path)
     pattern = f"{tmp_path}/tables/types/all/*/version=*/part-0.parquet"
     columns = ", ".join(f'"{name}"' for name in TYPES)
-    relation = duckdb.sql(
+    connection = duckdb.connect()  # its own connection: nothing left over from other tests
+    relation = connection.sql(
         f"SELECT {columns}, _captured_at, season "
         f"FROM read_parquet('{pattern}', hive_partitioning=true) ORDER BY name"
     )
@@ -133,6 +134,7 @@ def test_types_survive_duckdb(tmp_path: Path) -> None:
     rows = relation.fetchall()
     assert [row[: len(TYPES)] for row in rows] == [tuple(row.values()) for row in EXPECTED]
     assert {row[-1] for row in rows} == {2026}
+    connection.close()
 
 
 def test_types_survive_polars(tmp_path: Path) -> None:

@@ -195,7 +195,9 @@ def test_key_value_metadata_as_the_contract_says(tmp_path: Path) -> None:
     assert prov["source_urls"] == [URL2, URL] and prov["key"] == ["club"]  # first-seen order
     assert prov["committed_at"] == committed
     # DuckDB reads the same footer pairs (REFERENCES §7.1, parquet_kv_metadata)
-    pairs = dict(duckdb.execute("SELECT key, value FROM parquet_kv_metadata(?)", [path]).fetchall())
+    pairs = dict(
+        duckdb.connect().execute("SELECT key, value FROM parquet_kv_metadata(?)", [path]).fetchall()
+    )
     assert pairs[b"harvester.data_sha256"] == meta[b"harvester.data_sha256"]
     assert pairs[b"harvester.provenance"] == meta[b"harvester.provenance"]
 
@@ -301,7 +303,7 @@ def test_a_staged_file_is_invisible_to_pyarrow_and_duckdb(tmp_path: Path) -> Non
     assert found == [(tmp_path / DIR / "version=1/part-0.parquet").as_posix()]
     # DuckDB's glob does not skip dot files, but "*.parquet" does not match ".inprogress"
     glob = f"{table_dir.as_posix()}/**/*.parquet"
-    assert duckdb.execute("SELECT count(*) FROM glob(?)", [glob]).fetchone() == (1,)
+    assert duckdb.connect().execute("SELECT count(*) FROM glob(?)", [glob]).fetchone() == (1,)
 
 
 # ----------------------------------------------------------------------------- bad input
@@ -521,10 +523,8 @@ def test_hostile_partition_values_stay_inside_and_round_trip(tmp_path: Path) -> 
     )
     # DuckDB 2.0.1 percent-decodes Hive values too and reads the null marker as NULL (observed,
     # not in REFERENCES §7.2, which documents DuckDB's type autocast only; pinned here).
-    rows = duckdb.execute(
-        "SELECT club, k FROM read_parquet(?, hive_partitioning=true, hive_types={'k': VARCHAR})",
-        [f"{table_dir.as_posix()}/**/*.parquet"],
-    ).fetchall()
+    query = "SELECT club, k FROM read_parquet(?, hive_partitioning=true, hive_types={'k': VARCHAR})"
+    rows = duckdb.connect().execute(query, [f"{table_dir.as_posix()}/**/*.parquet"]).fetchall()
     assert dict(rows) == expected
 
 
@@ -538,8 +538,12 @@ def test_duckdb_reads_an_escaped_null_marker_as_text_where_pyarrow_reads_null(
     pq.write_table(pa.table({"i": [1]}), folder / "part-0.parquet")
     hive = ds.HivePartitioning(pa.schema([("k", pa.string())]), segment_encoding="uri")
     assert ds.dataset(tmp_path, partitioning=hive).to_table().column("k").to_pylist() == [None]
-    rows = duckdb.execute(
-        "SELECT k FROM read_parquet(?, hive_partitioning=true)",
-        [f"{tmp_path.as_posix()}/**/*.parquet"],
-    ).fetchall()
+    rows = (
+        duckdb.connect()
+        .execute(
+            "SELECT k FROM read_parquet(?, hive_partitioning=true)",
+            [f"{tmp_path.as_posix()}/**/*.parquet"],
+        )
+        .fetchall()
+    )
     assert rows == [("__HIVE_DEFAULT_PARTITION__",)]
