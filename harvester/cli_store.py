@@ -13,24 +13,18 @@ from collections.abc import Sequence
 from enum import StrEnum
 from typing import Annotated
 
-import pyarrow as pa
-import pyarrow.compute as pc
-import pyarrow.parquet as pq
 import typer
 
 from harvester.cli_exits import fail, usage
-from harvester.errors import HarvesterError, StoreError
+from harvester.errors import HarvesterError
 from harvester.store.archive import Archive, VersionInfo
-from harvester.store.diff import VersionDiff, diff_versions, json_value
-from harvester.store.layout import NULL_SEGMENT, open_root
+from harvester.store.compare import diff_partition, show_partition
+from harvester.store.diff import VersionDiff, json_value
+from harvester.store.layout import NULL_SEGMENT
 
 __all__ = ["DEFAULT_ARCHIVE", "StoreFormat", "diff_command", "versions_command"]
 
 DEFAULT_ARCHIVE = "archive"  # the default output root (DESIGN §2)
-_PROVENANCE = b"harvester.provenance"
-_DAMAGED = "the file is damaged or not harvester's; move its version folder out of the archive"
-
-Partition = tuple[tuple[str, str | None], ...]
 
 
 class StoreFormat(StrEnum):
@@ -47,13 +41,6 @@ def _split_target(target: str, *, table_required: bool) -> tuple[str, str | None
     if table_required and not table:
         usage(f"{target!r} names no table — write DATASET/TABLE, e.g. {dataset}/players")
     return dataset, table or None
-
-
-def _show_partition(partition: Partition) -> str:
-    """``season=2019/phase=final`` (decoded values; null as Hive's marker; "-" for none)."""
-    if not partition:
-        return "-"
-    return "/".join(f"{key}={NULL_SEGMENT if value is None else value}" for key, value in partition)
 
 
 def _stamp(info: VersionInfo) -> str:
@@ -102,7 +89,7 @@ def versions_command(
         typer.echo(json.dumps([_version_record(info) for info in infos], ensure_ascii=False))
         return
     for info in infos:
-        fields = (info.table, _show_partition(info.partition), str(info.version), str(info.rows))
+        fields = (info.table, show_partition(info.partition), str(info.version), str(info.rows))
         typer.echo("\t".join((*fields, _stamp(info), info.data_sha256)))
 
 
@@ -117,106 +104,6 @@ def _parse_partition(pairs: Sequence[str]) -> dict[str, str | None]:
             usage(f"--partition names {key!r} twice — give each partition key once")
         wanted[key] = None if value == NULL_SEGMENT else value
     return wanted
-
-
-def _pick_partition(
-    infos: list[VersionInfo], wanted: dict[str, str | None], name: str
-) -> list[VersionInfo]:
-    """The versions, oldest first, of the one partition that ``wanted`` matches."""
-    partitions: dict[Partition, list[VersionInfo]] = {}
-    for info in infos:
-        partitions.setdefault(info.partition, []).append(info)
-    keys = list(dict.fromkeys(key for partition in partitions for key, _ in partition))
-    for key in wanted:
-        if key not in keys:
-            raise StoreError(
-                f"{name} has no partition key {key!r} (keys: {', '.join(keys) or 'none'})",
-                hint="give --partition KEY=VALUE with one of those keys",
-            )
-    matches = [
-        partition
-        for partition in partitions
-        if all(
-            key in dict(partition) and dict(partition)[key] == value
-            for key, value in wanted.items()
-        )
-    ]
-    if not matches:
-        shown = ", ".join(_show_partition(partition) for partition in partitions)
-        raise StoreError(
-            f"{name} has no partition {_show_partition(tuple(wanted.items()))} "
-            f"(partitions: {shown})",
-            hint="name one of those with --partition KEY=VALUE",
-        )
-    if len(matches) > 1:
-        shown = ", ".join(_show_partition(partition) for partition in matches)
-        raise StoreError(
-            f"{name}: {len(matches)} partitions match ({shown})",
-            hint="add --partition KEY=VALUE for every partition key to name one",
-        )
-    return sorted(partitions[matches[0]], key=lambda info: info.version)
-
-
-def _pick_versions(
-    history: list[VersionInfo], old: int | None, new: int | None, name: str
-) -> tuple[VersionInfo, VersionInfo]:
-    """The (from, to) versions: --to defaults to the latest, --from to the one before --to."""
-    by_number = {info.version: info for info in history}
-    listed = ", ".join(str(number) for number in by_number)
-    for asked in (old, new):
-        if asked is not None and asked not in by_number:
-            raise StoreError(
-                f"{name} has no version {asked} (versions: {listed})",
-                hint="pick --from and --to among those",
-            )
-    newer = history[-1] if new is None else by_number[new]
-    if old is not None:
-        return by_number[old], newer
-    earlier = [info for info in history if info.version < newer.version]
-    if not earlier:
-        raise StoreError(
-            f"{name} has no version before {newer.version} to compare it with (versions: {listed})",
-            hint="pass --from N to choose the other version",
-        )
-    return earlier[-1], newer
-
-
-def _file_schema(archive: Archive, info: VersionInfo) -> pa.Schema:
-    filesystem, _ = open_root(archive.root)
-    try:
-        return pq.read_schema(info.path, filesystem=filesystem)
-    except (OSError, pa.ArrowInvalid) as exc:
-        raise StoreError(f"{info.path}: cannot read the footer: {exc}", hint=_DAMAGED) from exc
-
-
-def _recorded_key(info: VersionInfo, schema: pa.Schema) -> tuple[str, ...]:
-    """The key columns the harvest wrote in ``harvester.provenance`` (empty when none)."""
-    raw = (schema.metadata or {}).get(_PROVENANCE)
-    if raw is None:
-        return ()
-    try:
-        provenance = json.loads(raw)
-    except ValueError as exc:  # JSONDecodeError and UnicodeDecodeError are ValueErrors
-        raise StoreError(
-            f"{info.path}: harvester.provenance in the footer is not JSON ({exc})", hint=_DAMAGED
-        ) from exc
-    key = provenance.get("key", []) if isinstance(provenance, dict) else None
-    if not isinstance(key, list) or not all(isinstance(name, str) for name in key):
-        raise StoreError(
-            f'{info.path}: harvester.provenance "key" is not a list of column names',
-            hint=_DAMAGED,
-        )
-    return tuple(key)
-
-
-def _read_version(archive: Archive, info: VersionInfo, schema: pa.Schema) -> pa.Table:
-    """One version's rows with the file's own columns (read() adds partition columns)."""
-    where = {key: value for key, value in info.partition if value is not None}
-    table = archive.read(info.dataset, info.table, where=where, version=info.version)
-    for key, value in info.partition:
-        if value is None:  # `where` cannot ask for null, so keep the null partition's rows here
-            table = table.filter(pc.is_null(table.column(key)))
-    return table.select(schema.names)
 
 
 def _show_value(value: object) -> str:
@@ -272,22 +159,11 @@ def diff_command(
     dataset, table = _split_target(target, table_required=True)
     assert table is not None
     wanted = _parse_partition(partition or [])
-    name = f"{dataset}/{table}"
     try:
-        archive = Archive(root)
-        history = _pick_partition(archive.versions(dataset, table), wanted, name)
-        where = name
-        if history[0].partition:
-            where += " " + _show_partition(history[0].partition)
-        older, newer = _pick_versions(history, from_version, to_version, where)
-        old_schema, new_schema = _file_schema(archive, older), _file_schema(archive, newer)
-        diff = diff_versions(
-            _read_version(archive, older, old_schema),
-            _read_version(archive, newer, new_schema),
-            _recorded_key(newer, new_schema),
-        )
+        found = diff_partition(Archive(root), dataset, table, wanted, from_version, to_version)
     except HarvesterError as error:
         fail(error)
+    older, newer, diff = found.older, found.newer, found.diff
     if output_format is StoreFormat.json:
         record = {
             "dataset": dataset,
@@ -299,6 +175,9 @@ def diff_command(
         }
         typer.echo(json.dumps(record, ensure_ascii=False, allow_nan=False))
         return
+    where = f"{dataset}/{table}"
+    if newer.partition:
+        where += " " + show_partition(newer.partition)
     typer.echo(f"{where}: version {older.version} → {newer.version}")
     typer.echo(diff.summary())
     _print_diff(diff)
