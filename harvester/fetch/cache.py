@@ -69,6 +69,7 @@ class StoredResponse:
     request_time: datetime
     response_time: datetime
     immutable: bool = False
+    final_url: str | None = None  # where the body came from after redirects (``url`` is the key)
 
 
 @dataclass(frozen=True)

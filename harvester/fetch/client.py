@@ -228,7 +228,7 @@ class Fetcher:
     ) -> Capture:
         return Capture(
             url=url,
-            final_url=stored.url,
+            final_url=stored.final_url or stored.url,
             status=stored.status,
             headers=stored.headers,
             body=stored.body,
@@ -254,6 +254,7 @@ class Fetcher:
             request_time=answer.request_time,
             response_time=answer.response_time,
             immutable=immutable,
+            final_url=answer.url,
         )
 
     def _apply_crawl_delay(self, url: str, rules: RobotsTxt) -> None:

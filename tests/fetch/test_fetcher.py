@@ -283,3 +283,14 @@ def test_the_declared_charset_reaches_the_extractor(demo_site: DemoServer) -> No
     # 10 clubs; the U+2212 minus in goal difference survives the trip as a negative number.
     assert table.num_rows == 10
     assert min(table.column("gd").to_pylist()) < 0
+
+
+def test_a_cached_copy_remembers_where_the_redirects_led(
+    demo_site: DemoServer, tmp_path: Path
+) -> None:
+    with fetcher(cache_dir=tmp_path) as client:
+        first = client.fetch(demo_site.url("/"))
+        second = client.fetch(demo_site.url("/"))
+    assert second.origin == "cache"
+    assert first.final_url == second.final_url == demo_site.url("/index.html")
+    assert len(demo_site.requests_for("/")) == 1
