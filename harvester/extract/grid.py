@@ -197,6 +197,9 @@ def parse_span(value: str | None, default: int, minimum: int, maximum: int) -> i
     """
     if value is None:
         return default
+    if value.isascii() and value.isdigit() and len(value) <= 18:  # the usual "2": no regex
+        number = int(value)
+        return default if number < minimum else min(number, maximum)
     match = _LEADING_INT.match(value)
     if match is None:
         return default
