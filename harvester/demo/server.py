@@ -42,23 +42,19 @@ from __future__ import annotations
 
 import contextlib
 import hashlib
-import itertools
 import re
 import socket
 import socketserver
 import sys
 import threading
 import traceback
-import zlib
 from collections import deque
-from collections.abc import Callable, Iterator, Mapping, Sequence
-from dataclasses import dataclass, field
+from collections.abc import Mapping, Sequence
 from datetime import UTC, datetime, timedelta
 from decimal import Decimal
-from email.utils import format_datetime, parsedate_to_datetime
+from email.utils import format_datetime
 from functools import cache
 from html import escape
-from http import HTTPStatus
 from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 from types import TracebackType
 from typing import Self
@@ -66,27 +62,25 @@ from urllib.parse import urlsplit
 
 from harvester.demo.league import League, build_league
 from harvester.demo.pages import render_page, site_paths
+from harvester.demo.replies import (
+    HTML,
+    Reply,
+    error_reply,
+    filler,
+    gzip_bomb,
+    not_modified,
+    page,
+    redirect_reply,
+    write_reply,
+)
 from harvester.demo.requestlog import RequestLog, RequestRecord
 from harvester.errors import HarvesterError
 
 __all__ = ["LOOPBACK", "DemoServer"]
 
 LOOPBACK = "127.0.0.1"
-_HTML = "text/html; charset=utf-8"
 _SEASON_PAGE = re.compile(r"/seasons/(\d{4})/")
 _ROBOTS_HOP = re.compile(r"/robots/hop/([1-9]\d*)")
-_ENTITY_TAG = re.compile(r'(?:W/)?"([^"]*)"')  # RFC 9110 §8.8.3; W/ is case-sensitive
-_KNOWN_STATUSES = frozenset(HTTPStatus)
-_FILL = b"<p>Filler paragraph of an oversized page of the demo site.</p>\n" * 1024
-
-
-@dataclass
-class _Reply:
-    status: int
-    headers: dict[str, str] = field(default_factory=dict)
-    body: bytes = b""
-    stream: Iterator[bytes] | None = None  # written after ``body``; its length is in headers
-    chunked: bool = False
 
 
 class DemoServer:
@@ -246,14 +240,14 @@ class DemoServer:
             headers[key] = f"{headers[key]}, {value}" if key in headers else value
         path = urlsplit(handler.path).path
         if too_soon and self.enforce:
-            reply = _error(429, {"Retry-After": str(self.retry_after)})
+            reply = error_reply(429, {"Retry-After": str(self.retry_after)})
         else:
             if seconds := self.slow.get(path):
                 self._stopping.wait(seconds)
             reply = self._forced_reply(path) or self._route(path)
-            if _not_modified(reply, headers):
+            if not_modified(reply, headers):
                 kept = ("ETag", "Cache-Control")  # RFC 9110 §15.4.5 (Date is always sent)
-                reply = _Reply(304, {k: v for k, v in reply.headers.items() if k in kept})
+                reply = Reply(304, {k: v for k, v in reply.headers.items() if k in kept})
 
         def log(sent: int) -> None:
             record = RequestRecord(
@@ -268,9 +262,9 @@ class DemoServer:
             )
             self._log.add(record)
 
-        _write(handler, reply, head=handler.command == "HEAD", log=log)
+        write_reply(handler, reply, head=handler.command == "HEAD", log=log)
 
-    def _forced_reply(self, path: str) -> _Reply | None:
+    def _forced_reply(self, path: str) -> Reply | None:
         with self._lock:
             if not (queue := self._forced.get(path)):
                 return None
@@ -278,51 +272,51 @@ class DemoServer:
         retry = self.forced_retry_after
         if isinstance(retry, datetime):
             retry = format_datetime(retry.astimezone(UTC), usegmt=True)
-        return _error(status, {} if retry is None else {"Retry-After": str(retry)})
+        return error_reply(status, {} if retry is None else {"Retry-After": str(retry)})
 
-    def _route(self, path: str) -> _Reply:
+    def _route(self, path: str) -> Reply:
         if path in ("/", "/loop/a", "/loop/b"):
-            return _redirect({"/": "/index.html", "/loop/a": "/loop/b"}.get(path, "/loop/a"))
+            return redirect_reply({"/": "/index.html", "/loop/a": "/loop/b"}.get(path, "/loop/a"))
         if path == "/robots.txt" and self.robots_redirects:
-            return _redirect("/robots/hop/1")
+            return redirect_reply("/robots/hop/1")
         hop = _ROBOTS_HOP.fullmatch(path)
         if hop and int(hop[1]) < self.robots_redirects:
-            return _redirect(f"/robots/hop/{int(hop[1]) + 1}")
+            return redirect_reply(f"/robots/hop/{int(hop[1]) + 1}")
         if path == "/robots.txt" or (hop and int(hop[1]) == self.robots_redirects):
             if self.robots_status is not None:
-                return _error(self.robots_status)
+                return error_reply(self.robots_status)
             return self._content(self._robots().encode(), "text/plain; charset=utf-8")
         if path == "/sitemap.xml":
             return self._content(self._sitemap().encode(), "application/xml")
         if path == "/private/":
-            return self._content(_page("Staff notes", "<p>Not for robots.</p>"), _HTML)
+            return self._content(page("Staff notes", "<p>Not for robots.</p>"), HTML)
         if path == "/data.csv":
             return self._content(self._csv().encode(), "text/csv; charset=utf-8")
         if path in ("/huge.html", "/huge-chunked.html"):
             chunked = path == "/huge-chunked.html"
             length = {} if chunked else {"Content-Length": str(self.huge_bytes)}
-            stream = _filler(self.huge_bytes)
-            return _Reply(200, {"Content-Type": _HTML, **length}, stream=stream, chunked=chunked)
+            stream = filler(self.huge_bytes)
+            return Reply(200, {"Content-Type": HTML, **length}, stream=stream, chunked=chunked)
         if path == "/bomb.html":
-            headers = {"Content-Type": _HTML, "Content-Encoding": "gzip"}
-            return _Reply(200, headers, _gzip_bomb(self.bomb_bytes))
+            headers = {"Content-Type": HTML, "Content-Encoding": "gzip"}
+            return Reply(200, headers, gzip_bomb(self.bomb_bytes))
         revision = self.revision  # read once: another thread may advance the clock meanwhile
         body = self._body(path, revision)
         season = _SEASON_PAGE.match(path)
         if body is None:
-            return _error(404)
+            return error_reply(404)
         if season and (retired := self._retired(int(season[1]))):
-            return _error(retired)
+            return error_reply(retired)
         # The revision that last changed the body dates it (pages other than seasons never do).
         revisions = range(revision, 0, -1)
         changed = next((r for r in revisions if self._body(path, r - 1) != body), 0)
         year = int(season[1]) if season else self.league.latest
         cache_control = None if not season or self.max_age is None else f"max-age={self.max_age}"
-        return self._content(body, _HTML, year, changed, cache_control)
+        return self._content(body, HTML, year, changed, cache_control)
 
     def _content(
         self, body: bytes, kind: str, year: int = 0, changed: int = 0, cache: str | None = None
-    ) -> _Reply:
+    ) -> Reply:
         modified = datetime(year or self.league.latest, 7, 1, tzinfo=UTC) + timedelta(changed)
         # RFC 9110 §8.8.2.1: never later than the response's Date.
         modified = min(modified, datetime.now(UTC).replace(microsecond=0))
@@ -330,7 +324,7 @@ class DemoServer:
         headers["Last-Modified"] = format_datetime(modified, usegmt=True)
         if cache is not None:
             headers["Cache-Control"] = cache
-        return _Reply(200, headers, body)
+        return Reply(200, headers, body)
 
     def _body(self, path: str, revision: int) -> bytes | None:
         key = (path, revision)
@@ -441,110 +435,6 @@ class _Handler(BaseHTTPRequestHandler):
 
     def log_message(self, format: str, *args: object) -> None:
         pass  # quiet: the site keeps its own log
-
-
-def _write(handler: _Handler, reply: _Reply, *, head: bool, log: Callable[[int], None]) -> None:
-    """Send ``reply``; call ``log`` with the body bytes sent just before the last write.
-
-    Logging before the last write means a client holding the whole response finds it logged. If
-    the client hangs up earlier, ``log`` gets the bytes written until then.
-    """
-    pieces = _pieces(handler, reply, head=head)
-    sent, logged = 0, False
-    try:
-        current = next(pieces)
-        for following in pieces:
-            handler.wfile.write(current[0])
-            sent, current = sent + current[1], following
-        log(sent + current[1])
-        logged = True
-        handler.wfile.write(current[0])
-    except OSError:
-        handler.close_connection = True  # the client stopped reading (a size limit, a timeout)
-        if not logged:
-            log(sent)
-
-
-def _pieces(handler: _Handler, reply: _Reply, *, head: bool) -> Iterator[tuple[bytes, int]]:
-    """The response as (bytes to write, body bytes among them): status and headers first."""
-    headers = {"Server": handler.version_string(), "Date": handler.date_time_string()}
-    headers |= reply.headers  # Date on every response: RFC 9110 §6.6.1
-    if reply.chunked:
-        headers["Transfer-Encoding"] = "chunked"
-    elif reply.status != 304 and "Content-Length" not in headers:
-        headers["Content-Length"] = str(len(reply.body))
-    phrase = HTTPStatus(reply.status).phrase if reply.status in _KNOWN_STATUSES else "Error"
-    lines = [f"{handler.protocol_version} {reply.status} {phrase}"]
-    lines += [f"{name}: {value}" for name, value in headers.items()]
-    yield ("\r\n".join(lines) + "\r\n\r\n").encode("latin-1"), 0
-    if head or reply.status == 304:
-        return
-    for chunk in itertools.chain([reply.body], reply.stream or ()):
-        if chunk:  # an empty chunk would end a chunked body
-            # Chunked framing: hex size, CRLF, data, CRLF; a zero-size chunk ends (RFC 9112 §7.1).
-            yield (b"%X\r\n%s\r\n" % (len(chunk), chunk) if reply.chunked else chunk), len(chunk)
-    if reply.chunked:
-        yield b"0\r\n\r\n", 0
-
-
-def _not_modified(reply: _Reply, request: Mapping[str, str]) -> bool:
-    """Whether a conditional GET/HEAD for ``reply`` gets 304 (RFC 9110 §13.2.2 steps 3-4)."""
-    etag = reply.headers.get("ETag")
-    if reply.status != 200 or etag is None:
-        return False
-    if (if_none_match := request.get("if-none-match")) is not None:
-        # §13.1.2: weak comparison, so W/"x" matches "x" (§8.8.3.2).
-        return if_none_match.strip() == "*" or etag.strip('"') in _ENTITY_TAG.findall(if_none_match)
-    since = _http_date(request.get("if-modified-since", ""))
-    modified = _http_date(reply.headers.get("Last-Modified", ""))
-    # §13.1.3: an invalid date is ignored; not modified when Last-Modified <= the date.
-    return since is not None and modified is not None and modified <= since
-
-
-def _http_date(value: str) -> datetime | None:
-    """An HTTP-date in any of RFC 9110 §5.6.7's three forms, as UTC; None if not a date."""
-    try:
-        moment = parsedate_to_datetime(value)
-    except (TypeError, ValueError, IndexError, OverflowError):
-        return None
-    return moment if moment.tzinfo else moment.replace(tzinfo=UTC)  # asctime means UTC
-
-
-def _error(status: int, headers: Mapping[str, str] | None = None) -> _Reply:
-    phrase = HTTPStatus(status).phrase if status in _KNOWN_STATUSES else "Error"
-    body = _page(f"{status} {phrase}", f"<p>The demo site answers {status} {phrase}.</p>")
-    return _Reply(status, {"Content-Type": _HTML, **(headers or {})}, body)
-
-
-def _redirect(location: str) -> _Reply:
-    return _Reply(302, {"Location": location, "Content-Type": _HTML}, _page("Found", ""))
-
-
-def _page(title: str, body: str) -> bytes:
-    head = f"<!DOCTYPE html>\n<html><head><title>{title}</title></head>\n"
-    return f"{head}<body>{body}</body></html>\n".encode()
-
-
-def _filler(size: int) -> Iterator[bytes]:
-    """``size`` bytes of an HTML page of filler paragraphs, in pieces of 64 KiB or so."""
-    head = b"<!DOCTYPE html>\n<html><head><title>Huge page</title></head><body>\n"
-    remaining, piece = size, head + _FILL
-    while remaining > 0:
-        yield piece[:remaining]
-        remaining -= len(piece[:remaining])
-        piece = _FILL
-
-
-@cache
-def _gzip_bomb(size: int) -> bytes:
-    """A gzip member that inflates to ``size`` bytes: an HTML head, then spaces."""
-    head = b"<!DOCTYPE html>\n<html><head><title>Bomb</title></head><body>\n"[:size]
-    compressor = zlib.compressobj(9, zlib.DEFLATED, 31)  # wbits 31: gzip wrapper (zlib docs)
-    parts, remaining, block = [compressor.compress(head)], size - len(head), b" " * (1 << 20)
-    while remaining > 0:
-        parts.append(compressor.compress(block[:remaining]))
-        remaining -= len(block[:remaining])
-    return b"".join([*parts, compressor.flush()])
 
 
 @cache
