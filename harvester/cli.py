@@ -40,8 +40,9 @@ CAUTION = (
     "harvester identifies itself honestly and never helps evade blocks."
 )
 
-EXIT_CODES = """Exit status: 0 success; 1 error; 2 bad usage or invalid recipe; 3 table not found or
-not readable as asked."""
+EXIT_CODES = """Exit status: 0 success; 1 error, or (harvest) a table failed or was refused; 2 bad
+usage or invalid recipe; 3 table not found or not readable as asked; 4 fetching refused or failed
+(no contact, robots.txt, limits, HTTP); 5 archive error (locked, damaged)."""
 
 app = typer.Typer(
     name="harvester",
