@@ -21,6 +21,9 @@ __all__ = ["COMMENT_MARK", "LocatedTable", "Page", "describe_candidates", "locat
 COMMENT_MARK = "data-harvester-from-comment"
 _COMMENT_WITH_TABLE = re.compile(r"<!--((?:(?!-->).)*?<table\b(?:(?!-->).)*?)-->", re.S | re.I)
 _TABLE_TAG = re.compile(r"<table\b", re.I)
+# The same two patterns for pages kept as UTF-8 bytes (the markup they look for is ASCII).
+_COMMENT_WITH_TABLE_BYTES = re.compile(_COMMENT_WITH_TABLE.pattern.encode(), re.S | re.I)
+_TABLE_TAG_BYTES = re.compile(_TABLE_TAG.pattern.encode(), re.I)
 
 
 @dataclass(frozen=True)
@@ -33,9 +36,12 @@ class LocatedTable:
 
 
 class Page:
-    """A parsed HTML page whose tables can be looked up by selector."""
+    """A parsed HTML page whose tables can be looked up by selector.
 
-    def __init__(self, html: str, source: str = "<page>") -> None:
+    ``html`` is text, or UTF-8 bytes (which lexbor reads as they are, sparing a decoded copy).
+    """
+
+    def __init__(self, html: str | bytes, source: str = "<page>") -> None:
         self.source = source
         self.html = html
         self.document = LexborHTMLParser(html)
@@ -47,9 +53,13 @@ class Page:
         """The page parsed again with table-holding comments opened, or None if it has none."""
         if not self._uncommented_done:
             self._uncommented_done = True
-            if "<!--" in self.html and _COMMENT_WITH_TABLE.search(self.html):
-                opened = _COMMENT_WITH_TABLE.sub(_open_comment, self.html)
-                self._uncommented = LexborHTMLParser(opened)
+            html = self.html
+            if isinstance(html, bytes):
+                if b"<!--" in html and _COMMENT_WITH_TABLE_BYTES.search(html):
+                    opened = _COMMENT_WITH_TABLE_BYTES.sub(_open_comment_bytes, html)
+                    self._uncommented = LexborHTMLParser(opened)
+            elif "<!--" in html and _COMMENT_WITH_TABLE.search(html):
+                self._uncommented = LexborHTMLParser(_COMMENT_WITH_TABLE.sub(_open_comment, html))
         return self._uncommented
 
     def tables(self, select: str) -> list[LocatedTable]:
@@ -78,6 +88,10 @@ class Page:
 
 def _open_comment(match: re.Match[str]) -> str:
     return _TABLE_TAG.sub(f"<table {COMMENT_MARK}", match.group(1))
+
+
+def _open_comment_bytes(match: re.Match[bytes]) -> bytes:
+    return _TABLE_TAG_BYTES.sub(f"<table {COMMENT_MARK}".encode(), match.group(1))
 
 
 def _tables_for(document: LexborHTMLParser, select: str, source: str) -> list[LexborNode]:

@@ -7,6 +7,7 @@ rule's patterns) → values (typed columns, markers, links).
 
 from __future__ import annotations
 
+import codecs
 import re
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -15,7 +16,7 @@ from urllib.parse import urljoin
 import pyarrow as pa
 
 from harvester.errors import ExtractError
-from harvester.extract.decode import decode_html
+from harvester.extract.decode import decode_html, sniff_encoding
 from harvester.extract.grid import Grid, build_grid
 from harvester.extract.headers import (
     collapse_headers,
@@ -53,9 +54,17 @@ class _Body:
 
 
 def read_page(html: str | bytes, source: str = "<page>", encoding: str | None = None) -> Page:
-    """Parse a page given as text or bytes (bytes decoded as a browser would)."""
-    text = decode_html(html, encoding) if isinstance(html, bytes) else html
-    return Page(text, source)
+    """Parse a page given as text or bytes (bytes decoded as a browser would).
+
+    UTF-8 bytes go to the parser as they are (less a BOM): lexbor decodes UTF-8 itself, with
+    U+FFFD for invalid sequences as decode_html would, and no decoded copy is kept.
+    """
+    if isinstance(html, str):
+        return Page(html, source)
+    chosen, has_bom = sniff_encoding(html, encoding)
+    if chosen == "utf-8":
+        return Page(html[len(codecs.BOM_UTF8) :] if has_bom else html, source)
+    return Page(decode_html(html, encoding), source)
 
 
 def _as_page(page: Page | str | bytes, source: str) -> Page:
