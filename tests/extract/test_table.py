@@ -142,3 +142,24 @@ def test_overlapping_cells_are_counted() -> None:
         "<tr><td colspan=2>4</td><td>5</td></tr></table>"
     )
     assert extract_table(page).overlaps == 1
+
+
+def test_pages_given_as_bytes_read_like_the_text() -> None:
+    from harvester import read_page
+
+    text = (
+        '<div><!-- <table id="adv"><tr><th>Name</th></tr>'
+        "<tr><td>Léa — Varn</td></tr></table> --></div>"
+    )
+    as_text = extract_table(read_page(text), TableRule(select="#adv")).table
+    # UTF-8 with a BOM (HTML §13.2.3.1: the BOM decides) and without one.
+    for data in (text.encode(), b"\xef\xbb\xbf" + text.encode()):
+        assert extract_table(read_page(data), TableRule(select="#adv")).table == as_text
+
+
+def test_bytes_that_are_not_utf8_fall_back_to_windows_1252() -> None:
+    from harvester import read_page
+
+    # 0x93/0x94 are curly quotes in windows-1252 (Encoding Standard index) and invalid UTF-8.
+    page = read_page(b"<table><tr><th>q</th></tr><tr><td>\x93x\x94</td></tr></table>")
+    assert extract_table(page).table.column("q").to_pylist() == ["\u201cx\u201d"]
