@@ -309,16 +309,20 @@ def harvest(
     mode: FetchMode = "offline" if offline else "refresh" if refresh else "normal"
     try:
         loaded = load_recipe(recipe, _overrides(set_values))
+        show = output_format is PlanFormat.text
         report = run_harvest(
-            loaded, archive=archive, contact=contact, mode=mode, every_value=every_value
+            loaded,
+            archive=archive,
+            contact=contact,
+            mode=mode,
+            every_value=every_value,
+            on_outcome=(lambda outcome: typer.echo(outcome.line())) if show else None,
         )
     except HarvesterError as error:
         fail(error)
     if output_format is PlanFormat.json:
         typer.echo(report.to_json_lines(), nl=False)
     else:
-        for outcome in report.outcomes:
-            typer.echo(outcome.line())
         typer.echo(f"run {report.run_id}: {summary(report.outcomes)} (report in {archive}/runs/)")
     if report.failed:
         raise typer.Exit(1)

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import json
 import uuid
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import asdict, dataclass, field
 from datetime import UTC, datetime
 from pathlib import Path
@@ -121,8 +121,13 @@ def harvest(
     mode: FetchMode = "normal",
     every_value: bool = False,
     transport: httpx.AsyncBaseTransport | None = None,
+    on_outcome: Callable[[Outcome], None] | None = None,
 ) -> RunReport:
-    """Run ``recipe`` for its current parameter values (or every value) into ``archive``."""
+    """Run ``recipe`` for its current parameter values (or every value) into ``archive``.
+
+    ``on_outcome`` is called with each table's outcome as soon as it is known (a long run
+    shows its progress line by line).
+    """
     identity = Identity.from_contact(
         contact or recipe.contact or configured_contact(), where=str(recipe.path)
     )
@@ -139,7 +144,10 @@ def harvest(
         ) as fetcher,
     ):
         for page in recipe.plan(every_value=every_value):
-            report.outcomes += _harvest_page(recipe, page, fetcher, writer, report.run_id)
+            for outcome in _harvest_page(recipe, page, fetcher, writer, report.run_id):
+                report.outcomes.append(outcome)
+                if on_outcome is not None:
+                    on_outcome(outcome)
     report.finished_at = datetime.now(UTC)
     _write_report(archive, report)
     return report

@@ -20,7 +20,7 @@ from harvester.cli import app
 from harvester.demo.league import build_league
 from harvester.demo.server import DemoServer
 from harvester.recipe import Recipe, load_recipe
-from harvester.run import harvest
+from harvester.run import Outcome, harvest
 
 RECIPES = Path(__file__).resolve().parent.parent / "recipes"
 Factory = Callable[..., DemoServer]
@@ -182,3 +182,26 @@ def test_refused_drift_keeps_the_archive_and_fails_the_run(
     assert "min_rows" in outcome.message and "refused" in outcome.line()
     assert report.failed
     assert parquet_files(tmp_path / "archive") == []
+
+
+def test_each_outcome_is_reported_as_soon_as_it_is_known(
+    demo_site: DemoServer, tmp_path: Path
+) -> None:
+    # Two tables on two pages: the first outcome must arrive before the second page is asked for.
+    text = (RECIPES / "league-standings.toml").read_text(encoding="utf-8")
+    two_pages = tmp_path / "two.toml"
+    two_pages.write_text(
+        text + '\n[tables.contracts]\nurl = "{site}/seasons/{season}/contracts.html"\n'
+        'select = "table#contracts"\n',
+        encoding="utf-8",
+    )
+    seen: list[tuple[str, int]] = []
+
+    def note(outcome: Outcome) -> None:
+        seen.append((outcome.table, len(demo_site.log)))
+
+    loaded = load_recipe(two_pages, {"site": demo_site.base_url})
+    report = harvest(loaded, archive=str(tmp_path / "archive"), on_outcome=note)
+    assert [table for table, _ in seen] == [o.table for o in report.outcomes]
+    # robots.txt + standings when the first is reported; + contracts when the second is.
+    assert seen == [("standings", 2), ("contracts", 3)]
