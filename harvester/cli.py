@@ -425,6 +425,9 @@ def robots(
     explain: Annotated[
         bool, typer.Option("--explain", help="Add the deciding rule as a third column.")
     ] = False,
+    output_format: Annotated[
+        PlanFormat, typer.Option("--format", "-f", help="text or json.")
+    ] = PlanFormat.text,
 ) -> None:
     """Say, per URL, whether robots.txt allows it: allowed<TAB>URL or disallowed<TAB>URL.
 
@@ -436,44 +439,72 @@ def robots(
     """
     from harvester.fetch.robots import RobotsTxt
 
-    if robots_file is not None:
-        rules = RobotsTxt.parse(_read_input(str(robots_file)))
-        for url in urls:
-            _print_verdict(url, rules.check(url, agent), explain)
-        return
     try:
-        _robots_live(urls, agent, contact, explain)
+        if robots_file is not None:
+            rules = RobotsTxt.parse(_read_input(str(robots_file)))
+            verdicts = [(url, rules.check(url, agent)) for url in urls]
+            delays: dict[str, float | None] = {}
+        else:
+            verdicts, delays = _robots_live(urls, agent, contact)
     except HarvesterError as error:
         fail(error)
+    if output_format is PlanFormat.json:
+        import json
+
+        records = [_verdict_record(url, verdict) for url, verdict in verdicts]
+        typer.echo(json.dumps({"agent": agent, "urls": records, "crawl_delay": delays}))
+        return
+    for url, verdict in verdicts:
+        _print_verdict(url, verdict, explain)
+    for location, delay in delays.items():
+        shown = "none" if delay is None else f"{delay:g}"
+        suffix = f"\t{location}" if len(delays) > 1 else ""
+        typer.echo(f"crawl-delay\t{shown}{suffix}")
+
+
+def _why(verdict: Verdict) -> str:
+    rule = verdict.rule
+    if rule is None:
+        return verdict.reason
+    return f"line {rule.line}: {'Allow' if rule.allow else 'Disallow'}: {rule.pattern}"
+
+
+def _verdict_record(url: str, verdict: Verdict) -> dict[str, object]:
+    rule = verdict.rule
+    return {
+        "url": url,
+        "allowed": verdict.allowed,
+        "rule": None
+        if rule is None
+        else f"{'Allow' if rule.allow else 'Disallow'}: {rule.pattern}",
+        "line": None if rule is None else rule.line,
+        "reason": verdict.reason,
+    }
 
 
 def _print_verdict(url: str, verdict: Verdict, explain: bool) -> None:
     line = f"{'allowed' if verdict.allowed else 'disallowed'}\t{url}"
     if explain:
-        rule = verdict.rule
-        why = verdict.reason
-        if rule is not None:
-            why = f"line {rule.line}: {'Allow' if rule.allow else 'Disallow'}: {rule.pattern}"
-        line += f"\t{why}"
+        line += f"\t{_why(verdict)}"
     typer.echo(line)
 
 
-def _robots_live(urls: list[str], agent: str, contact: str | None, explain: bool) -> None:
+def _robots_live(
+    urls: list[str], agent: str, contact: str | None
+) -> tuple[list[tuple[str, Verdict]], dict[str, float | None]]:
     from harvester.config import configured_contact
     from harvester.fetch.identity import Identity
     from harvester.fetch.sync import SyncFetcher
 
     identity = Identity.from_contact(contact or configured_contact(), where="--contact")
+    verdicts: list[tuple[str, Verdict]] = []
+    delays: dict[str, float | None] = {}
     with SyncFetcher(identity) as fetcher:
-        delays: dict[str, float | None] = {}
         for url in urls:
             rules = fetcher.check_robots(url)
-            _print_verdict(url, rules.check(url, agent), explain)
+            verdicts.append((url, rules.check(url, agent)))
             delays[robots_url(url)] = rules.min_interval(agent)
-    for location, delay in delays.items():
-        shown = "none" if delay is None else f"{delay:g}"
-        suffix = f"\t{location}" if len(delays) > 1 else ""
-        typer.echo(f"crawl-delay\t{shown}{suffix}")
+    return verdicts, delays
 
 
 def _serve_demo(port: int, crawl_delay: float) -> None:

@@ -92,3 +92,26 @@ def test_live_form_without_a_contact_is_refused(demo_site: DemoServer) -> None:
     assert result.exit_code == 4
     assert "anonymously" in result.stderr and result.stderr.count("\n") == 1
     assert demo_site.log == []
+
+
+def test_json_format_carries_the_rule(tmp_path: Path) -> None:
+    import json
+
+    code, out, _ = run(tmp_path, "--agent", "harvester", "--format", "json", "/seasons/2019/")
+    assert code == 0
+    record = json.loads(out)
+    assert record["agent"] == "harvester" and record["crawl_delay"] == {}
+    (verdict,) = record["urls"]
+    assert {key: verdict[key] for key in ("url", "allowed", "rule", "line")} == {
+        "url": "/seasons/2019/",
+        "allowed": False,
+        "rule": "Disallow: /seasons/",
+        "line": 5,
+    }
+    assert isinstance(verdict["reason"], str) and verdict["reason"]
+
+
+def test_an_agent_with_no_product_token_is_a_one_line_error(tmp_path: Path) -> None:
+    code, out, err = run(tmp_path, "--agent", "/1.0", "/index.html")
+    assert code == 4 and out == ""
+    assert err.startswith("error: ") and err.count("\n") == 1
