@@ -191,7 +191,10 @@ def extract(
         table_to_json(result.table, sys.stdout)
     elif chosen is OutputFormat.parquet:
         assert out is not None
-        write_parquet(result.table, out)
+        try:
+            write_parquet(result.table, out)
+        except OSError as exc:
+            usage(f"{out}: cannot write the Parquet file ({exc}) — check the folder exists")
         typer.echo(f"wrote {result.table.num_rows} rows to {out}", err=True)
     else:
         rows = [list(row.values()) for row in table_rows(result.table)]

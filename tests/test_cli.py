@@ -179,3 +179,10 @@ def test_console_script_runs_as_a_real_process(page: Path) -> None:
     )
     assert done.returncode == 0, done.stderr
     assert done.stdout.splitlines()[0] == "Player,Shooting,Shooting,Salary"
+
+
+def test_parquet_into_a_missing_folder_is_a_one_line_error(page: Path, tmp_path: Path) -> None:
+    target = tmp_path / "no-such-folder" / "out.parquet"
+    code, _, err = invoke("extract", str(page), "-s", "#t", "-f", "parquet", "--out", str(target))
+    assert code == 2
+    assert "no-such-folder" in err and err.count("\n") == 1
