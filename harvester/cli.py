@@ -334,7 +334,12 @@ def harvest(
 @app.command()
 def demo(
     season: Annotated[
-        int | None, typer.Option("--season", help="Season to harvest (default: the current one).")
+        int | None,
+        typer.Option(
+            "--season",
+            help="Season to harvest (default: the current one; the live demo site keeps the "
+            "latest three).",
+        ),
     ] = None,
     archive: Annotated[
         str, typer.Option("--archive", metavar="ROOT", help="Archive root to harvest into.")
