@@ -7,7 +7,6 @@ server's request log, never from the code under test.
 from __future__ import annotations
 
 import json
-import time
 from collections.abc import Callable
 from pathlib import Path
 
@@ -28,11 +27,6 @@ Factory = Callable[..., DemoServer]
 
 def recipe(name: str, site: DemoServer, **overrides: str) -> Recipe:
     return load_recipe(RECIPES / f"{name}.toml", {"site": site.base_url, **overrides})
-
-
-def pause() -> None:
-    """Let the demo's Crawl-delay pass: a new run does not know when the last one asked."""
-    time.sleep(0.1)
 
 
 def parquet_files(root: Path) -> list[Path]:
@@ -77,7 +71,6 @@ def test_a_changed_page_becomes_version_2(demo_site_factory: Factory, tmp_path: 
     players = recipe("league-players", site)
     harvest(players, archive=str(tmp_path))
     site.advance()  # the demo clock moves: some goals change in the latest season
-    pause()
     report = harvest(players, archive=str(tmp_path))
     statuses = {o.table: (o.status, o.version) for o in report.outcomes}
     assert statuses["players"] == ("new", 2)
@@ -157,7 +150,7 @@ def test_cache_modes_reach_the_fetcher(demo_site: DemoServer, tmp_path: Path, fl
     args += ["--set", f"site={demo_site.base_url}"]
     assert CliRunner().invoke(app, args).exit_code == 0
     demo_site.clear_log()
-    pause()
+    # No pause: the second run knows from the archive's cache when the first one last asked.
     result = CliRunner().invoke(app, [*args, flag])
     assert result.exit_code == 0, result.stderr
     requests = demo_site.requests_for("/seasons/2026/contracts.html")

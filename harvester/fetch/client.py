@@ -10,6 +10,7 @@ The network layer is an httpx transport, so tests and replays can swap it.
 from __future__ import annotations
 
 import asyncio
+import time
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from pathlib import Path
@@ -97,6 +98,9 @@ class Fetcher:
 
             self._robots_store = diskcache.Cache(str(Path(cache_dir) / "robots"))
         self.robots = RobotsGate(self._fetch_robots, store=self._robots_store, on_429=robots_on_429)
+        # When each host was last asked, kept across runs: a run started right after another
+        # still waits out the interval (the store is the robots one; keys do not collide).
+        self._pace_loaded: set[tuple[str, str, int]] = set()
         timeout = httpx.Timeout(
             connect=self.limits.connect_timeout,
             read=self.limits.read_timeout,
@@ -339,6 +343,7 @@ class Fetcher:
     async def _send(self, url: str, headers: dict[str, str], *, check_type: bool) -> _Answer:
         """One paced GET with the hard limits; 429/503/5xx and network errors are transient."""
         host = host_key(url)
+        self._resume_pace(host)
         async with self.pacer.slot(host):
             request_time = _now()
             try:
@@ -348,6 +353,8 @@ class Fetcher:
                 raise _Transient(url, f"timed out ({type(exc).__name__})") from exc
             except httpx.TransportError as exc:
                 raise _Transient(url, f"network error: {exc}") from exc
+            finally:
+                self._remember_pace(host)
         if answer.status in (429, 503):
             received = answer.response_time
             value = header(answer.headers, "retry-after")
@@ -370,6 +377,20 @@ class Fetcher:
                 url, f"HTTP {answer.status} from {describe(host)}", None, answer.status
             )
         return answer
+
+    def _resume_pace(self, host: tuple[str, str, int]) -> None:
+        """Before a run's first request to a host, wait out the pace the last run left."""
+        if host in self._pace_loaded or self._robots_store is None:
+            return
+        self._pace_loaded.add(host)
+        last = self._robots_store.get(("pace", host))
+        if last is not None:
+            finished_at, interval = last
+            self.pacer.hold(host, finished_at + interval - time.time())
+
+    def _remember_pace(self, host: tuple[str, str, int]) -> None:
+        if self._robots_store is not None:
+            self._robots_store.set(("pace", host), (time.time(), self.pacer.interval(host)))
 
     async def _get(
         self, url: str, headers: dict[str, str], request_time: datetime, check_type: bool

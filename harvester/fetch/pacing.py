@@ -144,6 +144,11 @@ class HostPacer:
                 hint="check the site by hand; re-run later (a new run starts afresh)",
             )
 
+    def hold(self, host: HostKey, seconds: float) -> None:
+        """Start nothing on the host for ``seconds`` from now (e.g. a previous run's pace)."""
+        state = self._host(host)
+        state.hold_until = max(state.hold_until, self._clock() + max(0.0, seconds))
+
     def back_off(self, host: HostKey, retry_after: float | None) -> float:
         """After a 429 or 503: raise the interval and push the next start; return the wait.
 

@@ -294,3 +294,17 @@ def test_a_cached_copy_remembers_where_the_redirects_led(
     assert second.origin == "cache"
     assert first.final_url == second.final_url == demo_site.url("/index.html")
     assert len(demo_site.requests_for("/")) == 1
+
+
+def test_a_run_started_right_after_another_still_keeps_the_pace(
+    demo_site: DemoServer, tmp_path: Path
+) -> None:
+    # Two runs back to back (say, two cron jobs) share the cache folder; the second's first
+    # request must still come a Crawl-delay after the first run's last one, on the server's clock.
+    with fetcher(cache_dir=tmp_path, mode="refresh") as client:
+        client.fetch(demo_site.url(PLAYERS))
+    with fetcher(cache_dir=tmp_path, mode="refresh") as client:
+        client.fetch(demo_site.url(STANDINGS))
+    assert [record.path for record in demo_site.log] == ["/robots.txt", PLAYERS, STANDINGS]
+    assert demo_site.violations() == []
+    assert min(start_gaps(demo_site)) >= TEST_CRAWL_DELAY
