@@ -15,13 +15,13 @@ from typing import Annotated
 import typer
 
 from harvester import __version__
-from harvester.cli_exits import fail, usage
+from harvester.cli_common import TextFormat, fail, read_input, usage
+from harvester.cli_demo import demo_command
+from harvester.cli_robots import robots_command
 from harvester.cli_store import diff_command, versions_command
 from harvester.errors import HarvesterError
 from harvester.extract.rules import TableRule
 from harvester.extract.table import extract_grid, extract_table, read_page
-from harvester.fetch.identity import AGENT_TOKEN
-from harvester.fetch.robots import Verdict, robots_url
 from harvester.render import (
     grid_to_csv,
     grid_to_json,
@@ -81,15 +81,6 @@ def _main(
     ] = False,
 ) -> None:
     """A polite, cached web-table harvester with a snapshot archive."""
-
-
-def _read_input(path: str) -> bytes:
-    if path == "-":
-        return sys.stdin.buffer.read()
-    try:
-        return Path(path).read_bytes()
-    except OSError as exc:
-        usage(f"{path}: cannot read the file ({exc.strerror}) — check the path")
 
 
 def _rule_for(
@@ -168,7 +159,7 @@ def extract(
         usage("--format parquet writes a file — add --out PATH")
     if grid and chosen is OutputFormat.parquet:
         usage("--grid prints text slots — use --format csv, json or table")
-    data = _read_input(file)
+    data = read_input(file)
     source = "<stdin>" if file == "-" else file
     try:
         rule = _rule_for(recipe, table, select, index, header_rows, drop_hidden)
@@ -201,13 +192,6 @@ def extract(
         table_to_rich(rows, result.table.column_names, sys.stdout, title=result.caption or "")
 
 
-class PlanFormat(StrEnum):
-    """How ``check`` prints the plan."""
-
-    text = "text"
-    json = "json"
-
-
 def _overrides(pairs: list[str] | None) -> dict[str, str]:
     overrides: dict[str, str] = {}
     for pair in pairs or []:
@@ -229,8 +213,8 @@ def check(
         typer.Option("--set", metavar="NAME=VALUE", help="Override site or a parameter."),
     ] = None,
     output_format: Annotated[
-        PlanFormat, typer.Option("--format", "-f", help="text or json.")
-    ] = PlanFormat.text,
+        TextFormat, typer.Option("--format", "-f", help="text or json.")
+    ] = TextFormat.text,
 ) -> None:
     """Validate a recipe and print the pages and tables it would fetch, fetching nothing.
 
@@ -243,7 +227,7 @@ def check(
         plan = loaded.plan(every_value=every_value)
     except HarvesterError as error:
         fail(error)
-    if output_format is PlanFormat.json:
+    if output_format is TextFormat.json:
         import json
 
         pages = [
@@ -258,14 +242,6 @@ def check(
     )
     for page in plan:
         typer.echo(f"{page.url}\t{', '.join(page.tables)}")
-
-
-class ModeOption(StrEnum):
-    """How ``harvest`` uses the HTTP cache."""
-
-    normal = "normal"
-    offline = "offline"
-    refresh = "refresh"
 
 
 @app.command()
@@ -291,8 +267,8 @@ def harvest(
         bool, typer.Option("--refresh", help="Revalidate every cached page.")
     ] = False,
     output_format: Annotated[
-        PlanFormat, typer.Option("--format", "-f", help="text or json (JSON lines).")
-    ] = PlanFormat.text,
+        TextFormat, typer.Option("--format", "-f", help="text or json (JSON lines).")
+    ] = TextFormat.text,
 ) -> None:
     """Harvest a recipe's tables politely into the archive, one line per table.
 
@@ -312,7 +288,7 @@ def harvest(
     mode: FetchMode = "offline" if offline else "refresh" if refresh else "normal"
     try:
         loaded = load_recipe(recipe, _overrides(set_values))
-        show = output_format is PlanFormat.text
+        show = output_format is TextFormat.text
         report = run_harvest(
             loaded,
             archive=archive,
@@ -323,7 +299,7 @@ def harvest(
         )
     except HarvesterError as error:
         fail(error)
-    if output_format is PlanFormat.json:
+    if output_format is TextFormat.json:
         typer.echo(report.to_json_lines(), nl=False)
     else:
         typer.echo(f"run {report.run_id}: {summary(report.outcomes)} (report in {archive}/runs/)")
@@ -331,211 +307,8 @@ def harvest(
         raise typer.Exit(1)
 
 
-@app.command()
-def demo(
-    season: Annotated[
-        int | None,
-        typer.Option(
-            "--season",
-            help="Season to harvest (default: the current one; the live demo site keeps the "
-            "latest three).",
-        ),
-    ] = None,
-    archive: Annotated[
-        str, typer.Option("--archive", metavar="ROOT", help="Archive root to harvest into.")
-    ] = "archive",
-    rows: Annotated[int, typer.Option("--rows", help="Rows to show per table.")] = 5,
-    write_site: Annotated[
-        Path | None,
-        typer.Option("--write-site", metavar="DIR", help="Write the demo pages to DIR and stop."),
-    ] = None,
-    serve: Annotated[
-        bool, typer.Option("--serve", help="Serve the demo site on 127.0.0.1 until Ctrl-C.")
-    ] = False,
-    port: Annotated[int, typer.Option("--port", help="Port for --serve.")] = 8650,
-    crawl_delay: Annotated[
-        float, typer.Option("--crawl-delay", help="Crawl-delay the served robots.txt asks for.")
-    ] = 0.5,
-) -> None:
-    """Harvest the invented league from its loopback site into an archive, and read it back.
-
-    Starts the demo site on 127.0.0.1, runs recipes/league-*.toml against it (robots.txt,
-    pacing, cache, extraction, versioned Parquet), prints one line per table, then reads the
-    archive back. Run it twice: the second run finds nothing changed.
-
-    Example: harvester demo --archive /tmp/league-archive
-    """
-    from harvester.demo.tour import run_demo, write_demo_site
-
-    if serve:
-        _serve_demo(port, crawl_delay)
-        return
-    try:
-        if write_site is not None:
-            written = write_demo_site(write_site)
-            typer.echo(f"wrote {len(written)} pages of the demo site under {write_site}")
-            return
-        typer.echo("harvesting the demo league from a loopback site (invented data) …")
-        done = run_demo(archive, season)
-    except HarvesterError as error:
-        fail(error)
-    typer.echo(f"demo site was {done.site}; archive: {archive}")
-    for report in done.reports:
-        for outcome in report.outcomes:
-            typer.echo(outcome.line())
-    _show_archive(archive, rows, season)
-    if any(report.failed for report in done.reports):
-        raise typer.Exit(1)
-
-
-def _show_archive(archive: str, rows: int, season: int | None) -> None:
-    import pyarrow.compute as pc
-
-    from harvester.store.archive import Archive
-
-    store = Archive(archive)
-    for dataset in store.datasets():
-        for name in store.tables(dataset):
-            table = store.read(dataset, name)
-            if season is not None and "season" in table.column_names:
-                table = table.filter(pc.equal(table.column("season"), season))
-            data = [n for n in table.column_names if not n.startswith("_")]
-            shown = [list(row.values()) for row in table_rows(table.select(data).slice(0, rows))]
-            title = f"{dataset}/{name} — {table.num_rows} rows (latest versions), first {rows}"
-            table_to_rich(shown, data, sys.stdout, title=title)
-    typer.echo(
-        "read the latest versions without harvester (docs/archive.md), e.g.:\n"
-        '  duckdb -c "SELECT * FROM read_parquet('
-        f"'{archive}/tables/league-standings/standings/*/version=*/part-0.parquet', "
-        "hive_partitioning=true, hive_types={'season': BIGINT, 'version': BIGINT}, "
-        'union_by_name=true) QUALIFY version = max(version) OVER (PARTITION BY season)"'
-    )
-
-
-@app.command()
-def robots(
-    urls: Annotated[list[str], typer.Argument(metavar="URL...", help="URLs (or paths) to test.")],
-    robots_file: Annotated[
-        Path | None,
-        typer.Option("--robots-file", metavar="FILE", help="Judge by this robots.txt file."),
-    ] = None,
-    agent: Annotated[
-        str, typer.Option("--agent", metavar="NAME", help="Product token to match groups by.")
-    ] = AGENT_TOKEN,
-    contact: Annotated[
-        str | None,
-        typer.Option(
-            "--contact",
-            help="Your e-mail or URL, sent when fetching (default: HARVESTER_CONTACT or the "
-            "config file).",
-        ),
-    ] = None,
-    explain: Annotated[
-        bool, typer.Option("--explain", help="Add the deciding rule as a third column.")
-    ] = False,
-    output_format: Annotated[
-        PlanFormat, typer.Option("--format", "-f", help="text or json.")
-    ] = PlanFormat.text,
-) -> None:
-    """Say, per URL, whether robots.txt allows it: allowed<TAB>URL or disallowed<TAB>URL.
-
-    With --robots-file the file decides and nothing is fetched. Without it, each site's
-    robots.txt is fetched politely (with --contact) and the Crawl-delay in force is printed
-    last as crawl-delay<TAB>SECONDS. robots.txt is a site's wish, not a permission.
-
-    Example: harvester robots --robots-file robots.txt --agent harvester /seasons/2026/ /private/
-    """
-    from harvester.fetch.robots import RobotsTxt
-
-    try:
-        if robots_file is not None:
-            rules = RobotsTxt.parse(_read_input(str(robots_file)))
-            verdicts = [(url, rules.check(url, agent)) for url in urls]
-            delays: dict[str, float | None] = {}
-        else:
-            verdicts, delays = _robots_live(urls, agent, contact)
-    except HarvesterError as error:
-        fail(error)
-    if output_format is PlanFormat.json:
-        import json
-
-        records = [_verdict_record(url, verdict) for url, verdict in verdicts]
-        typer.echo(json.dumps({"agent": agent, "urls": records, "crawl_delay": delays}))
-        return
-    for url, verdict in verdicts:
-        _print_verdict(url, verdict, explain)
-    for location, delay in delays.items():
-        shown = "none" if delay is None else f"{delay:g}"
-        suffix = f"\t{location}" if len(delays) > 1 else ""
-        typer.echo(f"crawl-delay\t{shown}{suffix}")
-
-
-def _why(verdict: Verdict) -> str:
-    rule = verdict.rule
-    if rule is None:
-        return verdict.reason
-    return f"line {rule.line}: {'Allow' if rule.allow else 'Disallow'}: {rule.pattern}"
-
-
-def _verdict_record(url: str, verdict: Verdict) -> dict[str, object]:
-    rule = verdict.rule
-    return {
-        "url": url,
-        "allowed": verdict.allowed,
-        "rule": None
-        if rule is None
-        else f"{'Allow' if rule.allow else 'Disallow'}: {rule.pattern}",
-        "line": None if rule is None else rule.line,
-        "reason": verdict.reason,
-    }
-
-
-def _print_verdict(url: str, verdict: Verdict, explain: bool) -> None:
-    line = f"{'allowed' if verdict.allowed else 'disallowed'}\t{url}"
-    if explain:
-        line += f"\t{_why(verdict)}"
-    typer.echo(line)
-
-
-def _robots_live(
-    urls: list[str], agent: str, contact: str | None
-) -> tuple[list[tuple[str, Verdict]], dict[str, float | None]]:
-    from harvester.config import configured_contact
-    from harvester.fetch.identity import Identity
-    from harvester.fetch.sync import SyncFetcher
-
-    identity = Identity.from_contact(contact or configured_contact(), where="--contact")
-    verdicts: list[tuple[str, Verdict]] = []
-    delays: dict[str, float | None] = {}
-    with SyncFetcher(identity) as fetcher:
-        for url in urls:
-            rules = fetcher.check_robots(url)
-            verdicts.append((url, rules.check(url, agent)))
-            delays[robots_url(url)] = rules.min_interval(agent)
-    return verdicts, delays
-
-
-def _serve_demo(port: int, crawl_delay: float) -> None:
-    import time
-
-    from harvester.demo.server import DemoServer
-
-    try:
-        site = DemoServer(port=port, crawl_delay=crawl_delay).start()
-    except (HarvesterError, OSError) as error:
-        usage(f"cannot serve on 127.0.0.1:{port} ({error}) — pick another --port")
-    typer.echo(
-        f"demo site on {site.base_url} (robots.txt Crawl-delay {crawl_delay:g} s); Ctrl-C stops"
-    )
-    try:
-        while True:
-            time.sleep(3600)
-    except KeyboardInterrupt:
-        pass
-    finally:
-        site.stop()
-
-
+app.command(name="demo")(demo_command)
+app.command(name="robots")(robots_command)
 app.command(name="versions")(versions_command)
 app.command(name="diff")(diff_command)
 

@@ -10,28 +10,20 @@ from __future__ import annotations
 import datetime as dt
 import json
 from collections.abc import Sequence
-from enum import StrEnum
 from typing import Annotated
 
 import typer
 
-from harvester.cli_exits import fail, usage
+from harvester.cli_common import TextFormat, fail, usage
 from harvester.errors import HarvesterError
 from harvester.store.archive import Archive, VersionInfo
 from harvester.store.compare import diff_partition, show_partition
 from harvester.store.diff import VersionDiff, json_value
 from harvester.store.layout import NULL_SEGMENT
 
-__all__ = ["DEFAULT_ARCHIVE", "StoreFormat", "diff_command", "versions_command"]
+__all__ = ["DEFAULT_ARCHIVE", "diff_command", "versions_command"]
 
 DEFAULT_ARCHIVE = "archive"  # the default output root (DESIGN §2)
-
-
-class StoreFormat(StrEnum):
-    """How ``versions`` and ``diff`` print their result."""
-
-    text = "text"
-    json = "json"
 
 
 def _split_target(target: str, *, table_required: bool) -> tuple[str, str | None]:
@@ -69,8 +61,8 @@ def versions_command(
         str, typer.Option("--archive", metavar="ROOT", help="Archive root: a folder or a URI.")
     ] = DEFAULT_ARCHIVE,
     output_format: Annotated[
-        StoreFormat, typer.Option("--format", "-f", help="text or json.")
-    ] = StoreFormat.text,
+        TextFormat, typer.Option("--format", "-f", help="text or json.")
+    ] = TextFormat.text,
 ) -> None:
     """List the archived versions of a dataset's tables, one line per version of a partition.
 
@@ -85,7 +77,7 @@ def versions_command(
         infos = Archive(root).versions(dataset, table)
     except HarvesterError as error:
         fail(error)
-    if output_format is StoreFormat.json:
+    if output_format is TextFormat.json:
         typer.echo(json.dumps([_version_record(info) for info in infos], ensure_ascii=False))
         return
     for info in infos:
@@ -143,8 +135,8 @@ def diff_command(
         str, typer.Option("--archive", metavar="ROOT", help="Archive root: a folder or a URI.")
     ] = DEFAULT_ARCHIVE,
     output_format: Annotated[
-        StoreFormat, typer.Option("--format", "-f", help="text or json.")
-    ] = StoreFormat.text,
+        TextFormat, typer.Option("--format", "-f", help="text or json.")
+    ] = TextFormat.text,
 ) -> None:
     """Show the rows added, removed and changed between two versions of one partition.
 
@@ -164,7 +156,7 @@ def diff_command(
     except HarvesterError as error:
         fail(error)
     older, newer, diff = found.older, found.newer, found.diff
-    if output_format is StoreFormat.json:
+    if output_format is TextFormat.json:
         record = {
             "dataset": dataset,
             "table": table,
