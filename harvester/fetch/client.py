@@ -11,8 +11,6 @@ from __future__ import annotations
 
 import asyncio
 import time
-from dataclasses import dataclass
-from datetime import UTC, datetime
 from pathlib import Path
 from typing import Literal
 from urllib.parse import urljoin, urlsplit
@@ -30,39 +28,13 @@ from harvester.fetch.limits import FetchLimits
 from harvester.fetch.pacing import DEFAULT_INTERVAL, HostPacer, describe, host_key
 from harvester.fetch.robots import RobotsTxt
 from harvester.fetch.robots_gate import RobotsAnswer, RobotsGate
+from harvester.fetch.transfer import Answer, Transient, get, now
 
 __all__ = ["FetchMode", "Fetcher"]
 
 FetchMode = Literal["normal", "offline", "refresh"]
 _REDIRECTS = frozenset({301, 302, 303, 307, 308})
 _RETRY_AFTER_CAP = 3600.0  # never wait longer than an hour on one Retry-After
-
-
-class _Transient(Exception):
-    """A failure worth retrying: 429, 503 (or other 5xx), a timeout, a dropped connection."""
-
-    def __init__(
-        self, url: str, reason: str, retry_after: float | None = None, status: int | None = None
-    ) -> None:
-        super().__init__(reason)
-        self.url = url
-        self.reason = reason
-        self.retry_after = retry_after
-        self.status = status
-
-
-@dataclass(frozen=True)
-class _Answer:
-    url: str
-    status: int
-    headers: tuple[tuple[str, str], ...]
-    body: bytes
-    request_time: datetime
-    response_time: datetime
-
-
-def _now() -> datetime:
-    return datetime.now(UTC)
 
 
 class Fetcher:
@@ -141,7 +113,7 @@ class Fetcher:
         self._check_scheme(url)
         request_headers = dict(self.identity.headers())
         lookup = (
-            self.cache.lookup("GET", url, request_headers, _now())
+            self.cache.lookup("GET", url, request_headers, now())
             if self.cache is not None
             else CacheLookup("miss", None, {}, None)
         )
@@ -158,7 +130,7 @@ class Fetcher:
         host = host_key(url)
         try:
             answer, hops = await self._with_retries(url, conditional)
-        except _Transient as failure:
+        except Transient as failure:
             self.pacer.failed(host_key(failure.url), failure.reason)
             raise FetchError(
                 f"gave up after {self.retries + 1} attempts: {failure.reason}",
@@ -244,7 +216,7 @@ class Fetcher:
 
     def _stored(
         self,
-        answer: _Answer,
+        answer: Answer,
         request_headers: dict[str, str],
         immutable: bool,
         key: str | None = None,
@@ -290,13 +262,13 @@ class Fetcher:
 
     def _wait(self, state: RetryCallState) -> float:
         failure = state.outcome.exception() if state.outcome is not None else None
-        if isinstance(failure, _Transient) and failure.retry_after is not None:
+        if isinstance(failure, Transient) and failure.retry_after is not None:
             return 0.0  # the pacer holds the host until Retry-After has passed
         return float(self._backoff(state))
 
     async def _with_retries(
         self, url: str, conditional: dict[str, str]
-    ) -> tuple[_Answer, tuple[str, ...]]:
+    ) -> tuple[Answer, tuple[str, ...]]:
         async for attempt in self._retrying():
             with attempt:
                 return await self._follow(url, conditional)
@@ -306,13 +278,13 @@ class Fetcher:
         return AsyncRetrying(
             stop=stop_after_attempt(self.retries + 1),
             wait=self._wait,
-            retry=retry_if_exception_type(_Transient),
+            retry=retry_if_exception_type(Transient),
             reraise=True,
         )
 
     async def _follow(
         self, url: str, conditional: dict[str, str]
-    ) -> tuple[_Answer, tuple[str, ...]]:
+    ) -> tuple[Answer, tuple[str, ...]]:
         """GET with redirects followed by hand, each hop robots-checked and paced."""
         current, seen = url, {url}
         hops: list[str] = []
@@ -340,19 +312,20 @@ class Fetcher:
             hint="the site redirects too often; check the URL",
         )
 
-    async def _send(self, url: str, headers: dict[str, str], *, check_type: bool) -> _Answer:
+    async def _send(self, url: str, headers: dict[str, str], *, check_type: bool) -> Answer:
         """One paced GET with the hard limits; 429/503/5xx and network errors are transient."""
         host = host_key(url)
         self._resume_pace(host)
         async with self.pacer.slot(host):
-            request_time = _now()
             try:
                 async with asyncio.timeout(self.limits.total_timeout):
-                    answer = await self._get(url, headers, request_time, check_type)
+                    answer = await get(
+                        self._client, url, headers, self.limits, check_type=check_type
+                    )
             except (TimeoutError, httpx.TimeoutException) as exc:
-                raise _Transient(url, f"timed out ({type(exc).__name__})") from exc
+                raise Transient(url, f"timed out ({type(exc).__name__})") from exc
             except httpx.TransportError as exc:
-                raise _Transient(url, f"network error: {exc}") from exc
+                raise Transient(url, f"network error: {exc}") from exc
             finally:
                 self._remember_pace(host)
         if answer.status in (429, 503):
@@ -371,11 +344,9 @@ class Fetcher:
             )
             self.pacer.back_off(host, retry_after)
             reason = f"HTTP {answer.status} from {describe(host)}"
-            raise _Transient(url, reason, retry_after, answer.status)
+            raise Transient(url, reason, retry_after, answer.status)
         if answer.status >= 500:
-            raise _Transient(
-                url, f"HTTP {answer.status} from {describe(host)}", None, answer.status
-            )
+            raise Transient(url, f"HTTP {answer.status} from {describe(host)}", None, answer.status)
         return answer
 
     def _resume_pace(self, host: tuple[str, str, int]) -> None:
@@ -392,61 +363,6 @@ class Fetcher:
         if self._robots_store is not None:
             self._robots_store.set(("pace", host), (time.time(), self.pacer.interval(host)))
 
-    async def _get(
-        self, url: str, headers: dict[str, str], request_time: datetime, check_type: bool
-    ) -> _Answer:
-        async with self._client.stream("GET", url, headers=headers) as response:
-            status = response.status_code
-            if check_type and 200 <= status < 300:
-                self._check_content_type(url, response.headers.get("content-type"))
-            body = await self._read_body(url, response)
-            return _Answer(
-                url=url,
-                status=status,
-                headers=tuple(response.headers.multi_items()),
-                body=body,
-                request_time=request_time,
-                response_time=_now(),
-            )
-
-    def _check_content_type(self, url: str, content_type: str | None) -> None:
-        kind = (content_type or "").split(";", 1)[0].strip().lower()
-        if kind not in self.limits.content_types:
-            raise FetchLimitError(
-                f"expected an HTML page, got {content_type or 'no Content-Type'}",
-                url=url,
-                hint="point the recipe at the page that holds the table",
-            )
-
-    async def _read_body(self, url: str, response: httpx.Response) -> bytes:
-        limits = self.limits
-        declared = response.headers.get("content-length", "")
-        if declared.isdigit() and int(declared) > limits.max_body_bytes:
-            raise FetchLimitError(
-                f"body of {int(declared):,} bytes is over the {limits.max_body_bytes:,}-byte limit",
-                url=url,
-                hint="raise the limit only if the page really is that large",
-            )
-        chunks: list[bytes] = []
-        decoded = 0
-        async for chunk in response.aiter_bytes():
-            decoded += len(chunk)
-            if response.num_bytes_downloaded > limits.max_body_bytes:
-                raise FetchLimitError(
-                    f"body over the {limits.max_body_bytes:,}-byte limit; download stopped",
-                    url=url,
-                    hint="raise the limit only if the page really is that large",
-                )
-            if decoded > limits.max_decoded_bytes:
-                raise FetchLimitError(
-                    f"body inflates past {limits.max_decoded_bytes:,} bytes; "
-                    "stopped (a compression bomb?)",
-                    url=url,
-                    hint="the site sent a suspicious compressed body; report it",
-                )
-            chunks.append(chunk)
-        return b"".join(chunks)
-
     async def _fetch_robots(self, location: str) -> RobotsAnswer:
         """GET robots.txt, following up to five redirects (RFC 9309 §2.3.1.2)."""
         current, seen = location, {location}
@@ -456,7 +372,7 @@ class Fetcher:
                 async for attempt in self._retrying():
                     with attempt:
                         answer = await self._send(current, {}, check_type=False)
-            except _Transient as failure:
+            except Transient as failure:
                 return RobotsAnswer(failure.status, detail=failure.reason)
             target = header(answer.headers, "location")
             if answer.status not in _REDIRECTS or not target:

@@ -1,0 +1,110 @@
+"""One HTTP exchange on the wire: a streamed GET within the hard limits, and its answer.
+
+No pacing, robots.txt or cache here — the fetcher (client.py) wraps those around ``get``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from datetime import UTC, datetime
+
+import httpx
+
+from harvester.errors import FetchLimitError
+from harvester.fetch.limits import FetchLimits
+
+__all__ = ["Answer", "Transient", "get", "now"]
+
+
+class Transient(Exception):
+    """A failure worth retrying: 429, 503 (or other 5xx), a timeout, a dropped connection."""
+
+    def __init__(
+        self, url: str, reason: str, retry_after: float | None = None, status: int | None = None
+    ) -> None:
+        super().__init__(reason)
+        self.url = url
+        self.reason = reason
+        self.retry_after = retry_after
+        self.status = status
+
+
+@dataclass(frozen=True)
+class Answer:
+    """A final HTTP answer: status, headers, body and when it was asked and received."""
+
+    url: str
+    status: int
+    headers: tuple[tuple[str, str], ...]
+    body: bytes
+    request_time: datetime
+    response_time: datetime
+
+
+def now() -> datetime:
+    """The current time, aware, in UTC."""
+    return datetime.now(UTC)
+
+
+async def get(
+    client: httpx.AsyncClient,
+    url: str,
+    headers: dict[str, str],
+    limits: FetchLimits,
+    *,
+    check_type: bool,
+) -> Answer:
+    """One GET, streamed within ``limits``; the type checked first when ``check_type``."""
+    request_time = now()
+    async with client.stream("GET", url, headers=headers) as response:
+        status = response.status_code
+        if check_type and 200 <= status < 300:
+            _check_content_type(url, response.headers.get("content-type"), limits)
+        body = await _read_body(url, response, limits)
+        return Answer(
+            url=url,
+            status=status,
+            headers=tuple(response.headers.multi_items()),
+            body=body,
+            request_time=request_time,
+            response_time=now(),
+        )
+
+
+def _check_content_type(url: str, content_type: str | None, limits: FetchLimits) -> None:
+    kind = (content_type or "").split(";", 1)[0].strip().lower()
+    if kind not in limits.content_types:
+        raise FetchLimitError(
+            f"expected an HTML page, got {content_type or 'no Content-Type'}",
+            url=url,
+            hint="point the recipe at the page that holds the table",
+        )
+
+
+async def _read_body(url: str, response: httpx.Response, limits: FetchLimits) -> bytes:
+    declared = response.headers.get("content-length", "")
+    if declared.isdigit() and int(declared) > limits.max_body_bytes:
+        raise FetchLimitError(
+            f"body of {int(declared):,} bytes is over the {limits.max_body_bytes:,}-byte limit",
+            url=url,
+            hint="raise the limit only if the page really is that large",
+        )
+    chunks: list[bytes] = []
+    decoded = 0
+    async for chunk in response.aiter_bytes():
+        decoded += len(chunk)
+        if response.num_bytes_downloaded > limits.max_body_bytes:
+            raise FetchLimitError(
+                f"body over the {limits.max_body_bytes:,}-byte limit; download stopped",
+                url=url,
+                hint="raise the limit only if the page really is that large",
+            )
+        if decoded > limits.max_decoded_bytes:
+            raise FetchLimitError(
+                f"body inflates past {limits.max_decoded_bytes:,} bytes; "
+                "stopped (a compression bomb?)",
+                url=url,
+                hint="the site sent a suspicious compressed body; report it",
+            )
+        chunks.append(chunk)
+    return b"".join(chunks)
