@@ -15,7 +15,7 @@ from typing import Annotated
 import typer
 
 from harvester import __version__
-from harvester.cli_common import TextFormat, fail, read_input, usage
+from harvester.cli_common import DEFAULT_ARCHIVE, ArchiveOption, TextFormat, fail, read_input, usage
 from harvester.cli_demo import demo_command
 from harvester.cli_robots import robots_command
 from harvester.cli_store import diff_command, versions_command
@@ -247,9 +247,7 @@ def check(
 @app.command()
 def harvest(
     recipe: Annotated[Path, typer.Argument(metavar="RECIPE", help="A recipe file (TOML).")],
-    archive: Annotated[
-        str, typer.Option("--archive", metavar="ROOT", help="Archive root: a path or a URI.")
-    ] = "archive",
+    archive: ArchiveOption = DEFAULT_ARCHIVE,
     set_values: Annotated[
         list[str] | None,
         typer.Option("--set", metavar="NAME=VALUE", help="Override site or a parameter."),

@@ -5,13 +5,18 @@ from __future__ import annotations
 import sys
 from enum import StrEnum
 from pathlib import Path
-from typing import NoReturn
+from typing import Annotated, NoReturn
 
 import typer
 
 from harvester.errors import HarvesterError
 
-__all__ = ["TextFormat", "fail", "read_input", "usage"]
+__all__ = ["DEFAULT_ARCHIVE", "ArchiveOption", "TextFormat", "fail", "read_input", "usage"]
+
+DEFAULT_ARCHIVE = "archive"  # the default output root (DESIGN §2)
+ArchiveOption = Annotated[
+    str, typer.Option("--archive", metavar="ROOT", help="Archive root: a folder or a URI.")
+]
 
 
 class TextFormat(StrEnum):

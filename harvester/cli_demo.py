@@ -8,7 +8,7 @@ from typing import Annotated
 
 import typer
 
-from harvester.cli_common import fail, usage
+from harvester.cli_common import DEFAULT_ARCHIVE, ArchiveOption, fail, usage
 from harvester.errors import HarvesterError
 from harvester.render import table_rows, table_to_rich
 
@@ -24,9 +24,7 @@ def demo_command(
             "latest three).",
         ),
     ] = None,
-    archive: Annotated[
-        str, typer.Option("--archive", metavar="ROOT", help="Archive root to harvest into.")
-    ] = "archive",
+    archive: ArchiveOption = DEFAULT_ARCHIVE,
     rows: Annotated[int, typer.Option("--rows", help="Rows to show per table.")] = 5,
     write_site: Annotated[
         Path | None,

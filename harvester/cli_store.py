@@ -14,16 +14,14 @@ from typing import Annotated
 
 import typer
 
-from harvester.cli_common import TextFormat, fail, usage
+from harvester.cli_common import DEFAULT_ARCHIVE, ArchiveOption, TextFormat, fail, usage
 from harvester.errors import HarvesterError
 from harvester.store.archive import Archive, VersionInfo
 from harvester.store.compare import diff_partition, show_partition
 from harvester.store.diff import VersionDiff, json_value
 from harvester.store.layout import NULL_SEGMENT
 
-__all__ = ["DEFAULT_ARCHIVE", "diff_command", "versions_command"]
-
-DEFAULT_ARCHIVE = "archive"  # the default output root (DESIGN §2)
+__all__ = ["diff_command", "versions_command"]
 
 
 def _split_target(target: str, *, table_required: bool) -> tuple[str, str | None]:
@@ -57,9 +55,7 @@ def versions_command(
     target: Annotated[
         str, typer.Argument(metavar="DATASET[/TABLE]", help="A dataset, or one of its tables.")
     ],
-    root: Annotated[
-        str, typer.Option("--archive", metavar="ROOT", help="Archive root: a folder or a URI.")
-    ] = DEFAULT_ARCHIVE,
+    root: ArchiveOption = DEFAULT_ARCHIVE,
     output_format: Annotated[
         TextFormat, typer.Option("--format", "-f", help="text or json.")
     ] = TextFormat.text,
@@ -131,9 +127,7 @@ def diff_command(
     to_version: Annotated[
         int | None, typer.Option("--to", metavar="M", help="Newer version (default: the latest).")
     ] = None,
-    root: Annotated[
-        str, typer.Option("--archive", metavar="ROOT", help="Archive root: a folder or a URI.")
-    ] = DEFAULT_ARCHIVE,
+    root: ArchiveOption = DEFAULT_ARCHIVE,
     output_format: Annotated[
         TextFormat, typer.Option("--format", "-f", help="text or json.")
     ] = TextFormat.text,
