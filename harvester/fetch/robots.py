@@ -25,12 +25,12 @@ Choices the RFC leaves open, each pinned by a test:
   prefix match matches); a final ``$`` counts as one octet.
 * A pattern that starts with neither ``/`` nor ``*`` is kept but matches from the path's first
   octet (§2.2.2), which is always ``/``, so ``Disallow: fish`` blocks nothing.
-* Other records never end a group (§2.2.4): rules after a ``Sitemap`` or ``Crawl-delay`` line
-  still belong to the group above it. ``Sitemap`` and unknown records are transparent.
-  ``Crawl-delay`` and ``Request-rate`` belong to their group like rules do, so a
-  ``user-agent`` line after them starts a new group: ``User-agent: *`` / ``Crawl-delay: 10`` /
-  ``User-agent: otherbot`` / ``Disallow: /`` is two groups, as its author meant, not one that
-  blocks everybody (a project decision; the RFC's grammar leaves these records out).
+* Only ``allow``/``disallow`` lines end a run of ``user-agent`` lines; other records
+  (``sitemap``, ``crawl-delay``, anything unknown) never open, end or split a group: §2.2.4 says
+  they MUST NOT interfere with the parsing of the defined records. So ``User-agent: *`` /
+  ``Crawl-delay: 10`` / ``User-agent: otherbot`` / ``Disallow: /`` is ONE group, as the grammar
+  without the Crawl-delay line reads, and ``*`` agents are disallowed too. (Python's
+  urllib.robotparser reads two groups there; we follow the RFC, which errs on the polite side.)
 * ``/robots.txt`` is allowed even when robots.txt is unreachable (§2.2.2: implicitly allowed),
   so the fetcher may retry it. ``check`` reads input without a scheme as a path, even ``//a``.
 """
@@ -244,7 +244,7 @@ class RobotsTxt:
         groups: list[_Group] = []
         sitemaps: list[str] = []
         current: _Group | None = None
-        seen_rule = False  # a rule (or Crawl-delay) since the last user-agent line
+        seen_rule = False  # an allow/disallow since the last user-agent line
         for number, raw in enumerate(_LINE_BREAK.split(_limited_text(content)), start=1):
             record = _RECORD.fullmatch(raw.split("#", 1)[0])
             if record is None:
@@ -270,8 +270,6 @@ class RobotsTxt:
                 # published source. Read leniently ('_' or '-' or neither) as "other records";
                 # bad or negative values are ignored.
                 name = key.replace("-", "").replace("_", "")
-                if name in ("crawldelay", "requestrate"):
-                    seen_rule = True  # group-scoped: a user-agent line after it starts anew
                 if name == "crawldelay" and (delay := _seconds(value)) is not None:
                     current.crawl_delays.append(delay)
                 elif name == "requestrate" and (interval := _interval(value)) is not None:

@@ -178,28 +178,26 @@ def test_consecutive_user_agents_share_a_group_and_blank_lines_do_not_split() ->
 
 
 def test_other_records_never_open_or_end_a_group() -> None:
-    # §2.2.4: other records MUST NOT interfere with the defined ones. A Sitemap (or an unknown
-    # record) between two user-agent lines does not split them, and rules after one still
-    # belong to the group.
+    # §2.2.4: other records MUST NOT interfere with the defined ones. Crawl-delay between two
+    # user-agent lines does not split them (only allow/disallow end a run of them), and a
+    # Sitemap or an unknown record between rules does not end the group.
     robots = parse(
-        "User-agent: otherbot\nSitemap: https://league.example/s.xml\nUser-agent: harvester\n"
-        "Disallow: /x\nNoindex: /y\nDisallow: /z\n"
+        "User-agent: otherbot\nCrawl-delay: 3\nUser-agent: harvester\nDisallow: /x\n"
+        "Sitemap: https://league.example/s.xml\nNoindex: /y\nDisallow: /z\n"
     )
     for agent in ("otherbot", AGENT):
         assert not allowed(robots, "/x", agent)
         assert not allowed(robots, "/z", agent)
+        assert robots.crawl_delay(agent) == 3.0
     assert allowed(robots, "/y")
 
 
-def test_a_group_holding_only_a_crawl_delay_stays_its_own_group() -> None:
-    # Project decision (module docstring): Crawl-delay belongs to its group like a rule, so the
-    # next user-agent line opens a new group. Read as one group, this common file would block
-    # every agent from /x and slow the harvester to the '*' group's 10 s.
+def test_group_with_only_other_records_joins_the_next_group() -> None:
+    # §2.2 + §2.2.4: with the Crawl-delay line set aside, the file below is one run of
+    # user-agent lines then one rule, i.e. one group, so '*' gets the harvester's rule too.
     robots = parse("User-agent: *\nCrawl-delay: 10\n\nUser-agent: harvester\nDisallow: /x\n")
-    assert allowed(robots, "/x", "otherbot")
-    assert robots.crawl_delay("otherbot") == 10.0
-    assert not allowed(robots, "/x", AGENT)
-    assert robots.crawl_delay(AGENT) is None  # §2.2.1: a specific group replaces '*'
+    assert not allowed(robots, "/x", "otherbot")
+    assert robots.crawl_delay(AGENT) == 10.0
 
 
 def test_rules_after_a_crawl_delay_still_belong_to_the_group() -> None:
