@@ -12,7 +12,6 @@ import uuid
 from collections.abc import Callable, Sequence
 from dataclasses import asdict, dataclass, field
 from datetime import UTC, datetime
-from pathlib import Path
 from typing import Literal
 
 import httpx
@@ -27,6 +26,7 @@ from harvester.fetch.identity import Identity
 from harvester.fetch.sync import SyncFetcher
 from harvester.provenance import RowSource, rfc3339, with_provenance
 from harvester.recipe import PlannedPage, Recipe
+from harvester.store.layout import open_root
 from harvester.store.writer import ArchiveWriter
 
 __all__ = ["Outcome", "RunReport", "harvest", "summary"]
@@ -205,24 +205,16 @@ def _harvest_page(
     return outcomes
 
 
-def _filesystem(archive: str) -> tuple[pafs.FileSystem, str]:
-    """The pyarrow filesystem and root path of an archive given as a path or a URI."""
-    if "://" in archive:
-        filesystem, root = pafs.FileSystem.from_uri(archive)
-        return filesystem, root
-    return pafs.LocalFileSystem(), str(Path(archive).resolve())
-
-
 def _local_cache_dir(archive: str) -> str | None:
     """The HTTP cache folder inside a local archive root (diskcache needs a local folder)."""
-    filesystem, root = _filesystem(archive)
+    filesystem, root = open_root(archive)
     if not isinstance(filesystem, pafs.LocalFileSystem):
         return None  # an object-store archive: no on-disk HTTP cache
     return f"{root.rstrip('/')}/cache"
 
 
 def _write_report(archive: str, report: RunReport) -> None:
-    filesystem, root = _filesystem(archive)
+    filesystem, root = open_root(archive)
     folder = f"{root.rstrip('/')}/runs"
     filesystem.create_dir(folder, recursive=True)
     with filesystem.open_output_stream(f"{folder}/{report.run_id}.jsonl") as out:
