@@ -7,7 +7,6 @@ compares whole rows when none were recorded.
 
 from __future__ import annotations
 
-import datetime as dt
 import json
 from collections.abc import Sequence
 from typing import Annotated
@@ -16,6 +15,7 @@ import typer
 
 from harvester.cli_common import DEFAULT_ARCHIVE, ArchiveOption, TextFormat, fail, usage
 from harvester.errors import HarvesterError
+from harvester.provenance import rfc3339
 from harvester.store.archive import Archive, VersionInfo
 from harvester.store.compare import diff_partition, show_partition
 from harvester.store.diff import VersionDiff, json_value
@@ -33,11 +33,6 @@ def _split_target(target: str, *, table_required: bool) -> tuple[str, str | None
     return dataset, table or None
 
 
-def _stamp(info: VersionInfo) -> str:
-    # RFC 3339 UTC with "Z" and microseconds, as harvester.committed_at is written (STORE.md).
-    return info.committed_at.astimezone(dt.UTC).strftime("%Y-%m-%dT%H:%M:%S.%fZ")
-
-
 def _version_record(info: VersionInfo) -> dict[str, object]:
     return {
         "dataset": info.dataset,
@@ -45,7 +40,7 @@ def _version_record(info: VersionInfo) -> dict[str, object]:
         "partition": dict(info.partition),
         "version": info.version,
         "rows": info.rows,
-        "committed_at": _stamp(info),
+        "committed_at": rfc3339(info.committed_at),
         "data_sha256": info.data_sha256,
         "path": info.path,
     }
@@ -78,7 +73,7 @@ def versions_command(
         return
     for info in infos:
         fields = (info.table, show_partition(info.partition), str(info.version), str(info.rows))
-        typer.echo("\t".join((*fields, _stamp(info), info.data_sha256)))
+        typer.echo("\t".join((*fields, rfc3339(info.committed_at), info.data_sha256)))
 
 
 def _parse_partition(pairs: Sequence[str]) -> dict[str, str | None]:

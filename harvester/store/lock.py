@@ -26,6 +26,7 @@ from datetime import UTC, datetime
 import pyarrow.fs as pafs
 
 from harvester.errors import StoreError
+from harvester.provenance import rfc3339
 from harvester.store.layout import LOCK_FILE, join, local_path
 
 __all__ = ["WRITE_GRACE_S", "ArchiveLock", "LockHolder", "now_rfc3339", "pid_alive"]
@@ -38,7 +39,7 @@ _ATTEMPTS = 100
 
 def now_rfc3339() -> str:
     """The current UTC time as RFC 3339 §5.6 text with microseconds and "Z"."""
-    return datetime.now(UTC).isoformat(timespec="microseconds").replace("+00:00", "Z")
+    return rfc3339(datetime.now(UTC))
 
 
 def pid_alive(pid: int) -> bool:
