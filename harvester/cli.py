@@ -15,7 +15,15 @@ from typing import Annotated
 import typer
 
 from harvester import __version__
-from harvester.cli_common import DEFAULT_ARCHIVE, ArchiveOption, TextFormat, fail, read_input, usage
+from harvester.cli_common import (
+    DEFAULT_ARCHIVE,
+    ArchiveOption,
+    ContactOption,
+    TextFormat,
+    fail,
+    read_input,
+    usage,
+)
 from harvester.cli_demo import demo_command
 from harvester.cli_robots import robots_command
 from harvester.cli_store import diff_command, versions_command
@@ -255,9 +263,7 @@ def harvest(
     every_value: Annotated[
         bool, typer.Option("--all", help="Every parameter value, not just the current one.")
     ] = False,
-    contact: Annotated[
-        str | None, typer.Option("--contact", help="Your e-mail or URL (overrides the recipe).")
-    ] = None,
+    contact: ContactOption = None,
     offline: Annotated[
         bool, typer.Option("--offline", help="Use only the cache; fetch nothing.")
     ] = False,

@@ -11,11 +11,27 @@ import typer
 
 from harvester.errors import HarvesterError
 
-__all__ = ["DEFAULT_ARCHIVE", "ArchiveOption", "TextFormat", "fail", "read_input", "usage"]
+__all__ = [
+    "DEFAULT_ARCHIVE",
+    "ArchiveOption",
+    "ContactOption",
+    "TextFormat",
+    "fail",
+    "read_input",
+    "usage",
+]
 
 DEFAULT_ARCHIVE = "archive"  # the default output root (DESIGN §2)
 ArchiveOption = Annotated[
     str, typer.Option("--archive", metavar="ROOT", help="Archive root: a folder or a URI.")
+]
+ContactOption = Annotated[
+    str | None,
+    typer.Option(
+        "--contact",
+        help="Your e-mail or URL, sent with every request (else the recipe's, "
+        "HARVESTER_CONTACT or the config file).",
+    ),
 ]
 
 

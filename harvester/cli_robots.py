@@ -8,7 +8,7 @@ from typing import Annotated
 
 import typer
 
-from harvester.cli_common import TextFormat, fail, read_input
+from harvester.cli_common import ContactOption, TextFormat, fail, read_input
 from harvester.errors import HarvesterError
 from harvester.fetch.identity import AGENT_TOKEN
 from harvester.fetch.robots import Verdict, robots_url
@@ -25,14 +25,7 @@ def robots_command(
     agent: Annotated[
         str, typer.Option("--agent", metavar="NAME", help="Product token to match groups by.")
     ] = AGENT_TOKEN,
-    contact: Annotated[
-        str | None,
-        typer.Option(
-            "--contact",
-            help="Your e-mail or URL, sent when fetching (default: HARVESTER_CONTACT or the "
-            "config file).",
-        ),
-    ] = None,
+    contact: ContactOption = None,
     explain: Annotated[
         bool, typer.Option("--explain", help="Add the deciding rule as a third column.")
     ] = False,
