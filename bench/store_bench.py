@@ -35,7 +35,8 @@ import pyarrow as pa
 import pyarrow.dataset as ds
 import pyarrow.parquet as pq
 
-from harvester.store.writer import PROVENANCE_COLUMNS, ArchiveWriter
+from harvester.store.contract import PROVENANCE_COLUMNS
+from harvester.store.writer import ArchiveWriter
 
 CLUBS = ("Elkbay HC", "Marsh Rovers", "Tidewater 07", "Fenwick SC", "Harrowgate", "Colm Vale")
 POSITIONS = ("GK", "LW", "RW", "LB", "CB", "RB", "PV")

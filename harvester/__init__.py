@@ -19,11 +19,12 @@ from harvester.fetch.client import Fetcher
 from harvester.fetch.identity import Identity
 from harvester.fetch.limits import FetchLimits
 from harvester.fetch.robots import RobotsTxt
+from harvester.fetch.source import PageRequest, PageSource
 from harvester.fetch.sync import SyncFetcher
 from harvester.recipe import PlannedPage, Recipe, RecipeTable, load_recipe
 from harvester.run import Outcome, RunReport, harvest
 from harvester.store.archive import Archive, VersionInfo
-from harvester.store.compare import PartitionDiff, diff_partition
+from harvester.store.partition_diff import PartitionDiff, diff_partition
 from harvester.store.writer import ArchiveWriter, CommitResult
 
 __all__ = [
@@ -40,6 +41,8 @@ __all__ = [
     "HarvesterError",
     "Identity",
     "Outcome",
+    "PageRequest",
+    "PageSource",
     "PartitionDiff",
     "PlannedPage",
     "Recipe",

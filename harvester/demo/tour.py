@@ -17,8 +17,18 @@ from harvester.demo.server import LOOPBACK, DemoServer
 from harvester.errors import HarvesterError
 from harvester.recipe import load_recipe
 from harvester.run import RunReport, harvest
+from harvester.store.archive import Archive
 
-__all__ = ["DEMO_PORT", "DEMO_RECIPES", "DemoRun", "demo_recipe_dir", "run_demo", "write_demo_site"]
+__all__ = [
+    "DEMO_PORT",
+    "DEMO_RECIPES",
+    "DemoRun",
+    "TablePreview",
+    "demo_recipe_dir",
+    "preview_archive",
+    "run_demo",
+    "write_demo_site",
+]
 
 DEMO_RECIPES = ("league-players.toml", "league-contracts.toml", "league-standings.toml")
 DEMO_PORT = 8650  # the port the demo recipes name in their site
@@ -33,13 +43,22 @@ class DemoRun:
     reports: tuple[RunReport, ...]
 
 
+@dataclass(frozen=True)
+class TablePreview:
+    """The first rows of one archived table's latest versions, data columns only."""
+
+    title: str
+    columns: tuple[str, ...]
+    rows: tuple[tuple[object, ...], ...]
+
+
 def demo_recipe_dir() -> Path:
-    """The folder holding the demo recipes (``recipes/`` at the top of the source tree)."""
-    folder = Path(__file__).resolve().parents[2] / "recipes"
+    """The folder holding the demo recipes: package data, shipped inside the wheel."""
+    folder = Path(__file__).resolve().parent / "recipes"
     if not (folder / DEMO_RECIPES[0]).is_file():
         raise HarvesterError(
             f"demo recipes not found in {folder}",
-            hint="run harvester from a source checkout installed with pip install -e .",
+            hint="reinstall harvester: its package data is incomplete",
         )
     return folder
 
@@ -72,3 +91,23 @@ def run_demo(
 def write_demo_site(directory: Path) -> list[Path]:
     """Write every page of the demo site under ``directory`` (to try ``harvester extract`` on)."""
     return write_site(build_league(), directory)
+
+
+def preview_archive(archive: str, rows: int = 5, season: int | None = None) -> list[TablePreview]:
+    """The first ``rows`` rows of every table's latest versions (of one season, if given)."""
+    import pyarrow.compute as pc
+
+    store = Archive(archive)
+    previews = []
+    for dataset in store.datasets():
+        for name in store.tables(dataset):
+            table = store.read(dataset, name)
+            if season is not None and "season" in table.column_names:
+                table = table.filter(pc.equal(table.column("season"), season))
+            data = [n for n in table.column_names if not n.startswith("_")]
+            shown = table.select(data).slice(0, rows).to_pylist()
+            title = f"{dataset}/{name} — {table.num_rows} rows (latest versions), first {rows}"
+            previews.append(
+                TablePreview(title, tuple(data), tuple(tuple(row.values()) for row in shown))
+            )
+    return previews

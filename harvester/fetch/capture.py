@@ -10,7 +10,8 @@ from typing import Literal
 
 __all__ = ["Capture", "Origin", "charset_of", "header"]
 
-Origin = Literal["live", "cache", "web-archive", "snapshot-archive", "cassette"]
+Origin = Literal["live", "cache", "web-archive", "snapshot-archive", "cassette", "file"]
+"""Where a capture's bytes came from; "file" is a page saved on disk (tests, examples)."""
 
 
 def header(headers: tuple[tuple[str, str], ...], name: str) -> str | None:
@@ -38,7 +39,8 @@ class Capture:
 
     ``fetched_at`` is when the request that produced the body started (UTC); for a copy served
     from the cache it is when that copy was fetched. ``redirects`` lists every URL requested
-    before ``final_url``.
+    before ``final_url``. ``origin`` says truthfully where the bytes came from; the last three
+    fields are filled by the sources that know them (web archives, the snapshot archive).
     """
 
     url: str
@@ -50,6 +52,9 @@ class Capture:
     origin: Origin
     redirects: tuple[str, ...] = ()
     revalidated: bool = False  # a stale cached copy confirmed by a 304
+    memento_datetime: datetime | None = None  # a web-archive capture's time (RFC 7089 §2.1.1)
+    memento_uri: str | None = None  # the web archive's URI of that capture (URI-M)
+    record_id: str | None = None  # the WARC-Record-ID it was stored as in the snapshot archive
 
     @property
     def sha256(self) -> str:

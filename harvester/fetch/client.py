@@ -21,13 +21,14 @@ from tenacity.wait import wait_random_exponential
 
 from harvester.errors import FetchError, FetchLimitError, HttpStatusError, RobotsDisallowedError
 from harvester.fetch.cache import CacheLookup, HttpCache, StoredResponse, conditional_headers
-from harvester.fetch.capture import Capture, header
+from harvester.fetch.capture import Capture, Origin, header
 from harvester.fetch.httpdate import parse_http_date, parse_retry_after
 from harvester.fetch.identity import Identity
 from harvester.fetch.limits import FetchLimits
 from harvester.fetch.pacing import DEFAULT_INTERVAL, HostPacer, describe, host_key
 from harvester.fetch.robots import RobotsTxt
 from harvester.fetch.robots_gate import RobotsAnswer, RobotsGate
+from harvester.fetch.source import PageRequest
 from harvester.fetch.transfer import Answer, Transient, get, now
 
 __all__ = ["FetchMode", "Fetcher"]
@@ -38,7 +39,11 @@ _RETRY_AFTER_CAP = 3600.0  # never wait longer than an hour on one Retry-After
 
 
 class Fetcher:
-    """Fetches pages politely; use ``async with Fetcher(...) as fetcher``."""
+    """Fetches pages politely; use ``async with Fetcher(...) as fetcher``.
+
+    A ``PageSource``: its captures come from the network (``origin``, "live" by default) or,
+    when the cache holds a usable copy, from the cache ("cache").
+    """
 
     def __init__(
         self,
@@ -54,8 +59,10 @@ class Fetcher:
         backoff_initial: float = 1.0,
         backoff_max: float = 60.0,
         robots_on_429: Literal["unreachable", "unavailable"] = "unreachable",
+        origin: Origin = "live",
     ) -> None:
         self.identity = identity
+        self.origin = origin  # what a network answer's capture says it came from
         self.mode = mode
         self.min_interval = min_interval  # the recipe's delay: raises Crawl-delay, never lowers
         self.limits = limits or FetchLimits()
@@ -69,7 +76,12 @@ class Fetcher:
             import diskcache
 
             self._robots_store = diskcache.Cache(str(Path(cache_dir) / "robots"))
-        self.robots = RobotsGate(self._fetch_robots, store=self._robots_store, on_429=robots_on_429)
+        self.robots = RobotsGate(
+            self._fetch_robots,
+            store=self._robots_store,
+            on_429=robots_on_429,
+            parse_limit=self.limits.robots_parse_limit,
+        )
         # When each host was last asked, kept across runs: a run started right after another
         # still waits out the interval (the store is the robots one; keys do not collide).
         self._pace_loaded: set[tuple[str, str, int]] = set()
@@ -102,7 +114,11 @@ class Fetcher:
         if self._robots_store is not None:
             self._robots_store.close()
 
-    # -- the public call ---------------------------------------------------------------
+    # -- the public calls --------------------------------------------------------------
+
+    async def capture(self, request: PageRequest) -> Capture:
+        """The ``PageSource`` call: fetch the request's page politely (see ``fetch``)."""
+        return await self.fetch(request.url, immutable=request.immutable)
 
     async def fetch(self, url: str, *, immutable: bool = False) -> Capture:
         """Fetch one page, from the cache when a fresh copy is there.
@@ -160,7 +176,7 @@ class Fetcher:
             headers=answer.headers,
             body=answer.body,
             fetched_at=answer.request_time,
-            origin="live",
+            origin=self.origin,
             redirects=hops,
         )
 
@@ -376,7 +392,9 @@ class Fetcher:
                 return RobotsAnswer(failure.status, detail=failure.reason)
             target = header(answer.headers, "location")
             if answer.status not in _REDIRECTS or not target:
-                return RobotsAnswer(answer.status, answer.body[: self.limits.robots_parse_limit])
+                # One octet past the limit, so the parser can tell a cut-off last line.
+                kept = answer.body[: self.limits.robots_parse_limit + 1]
+                return RobotsAnswer(answer.status, kept)
             current = urljoin(current, target.strip())
             if current in seen or urlsplit(current).scheme not in self.limits.schemes:
                 return RobotsAnswer(None, detail="robots.txt redirects in a loop")

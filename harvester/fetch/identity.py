@@ -14,11 +14,28 @@ from dataclasses import dataclass
 from harvester._version import __version__
 from harvester.errors import FetchError
 
-__all__ = ["AGENT_TOKEN", "Identity"]
+__all__ = ["AGENT_TOKEN", "CONTACT_HINT", "Identity", "check_contact"]
 
 AGENT_TOKEN = "harvester"
 _MAILBOX = re.compile(r"[^@\s<>()\[\],;:\"]+@[A-Za-z0-9.-]+\.[A-Za-z]{2,}")
 _WEB = re.compile(r"https?://[^\s()]+")
+CONTACT_HINT = 'write contact = "mailto:you@example.org" or "https://example.org/about"'
+
+
+def check_contact(contact: str) -> tuple[str | None, str]:
+    """The contact as it is sent, and '' — or None and the one-line problem with it.
+
+    An e-mail address is sent as ``mailto:<address>`` whether or not it was written with
+    ``mailto:``; a web contact is an http(s) URL. Every place that takes a contact (recipes,
+    ``--contact``, the environment, the config file) checks it here, so all agree.
+    """
+    contact = contact.strip()
+    address = contact.removeprefix("mailto:")
+    if _MAILBOX.fullmatch(address):
+        return f"mailto:{address}", ""
+    if _WEB.fullmatch(contact):
+        return contact, ""
+    return None, f"contact {contact!r} is neither an e-mail address nor an http(s) URL"
 
 
 @dataclass(frozen=True)
@@ -38,16 +55,10 @@ class Identity:
                 f"{prefix}no contact given; harvester does not fetch from live sites anonymously",
                 hint='set contact = "mailto:you@example.org" in the recipe, or pass --contact',
             )
-        contact = contact.strip()
-        address = contact.removeprefix("mailto:")
-        if not (_MAILBOX.fullmatch(address) or _WEB.fullmatch(contact)):
-            raise FetchError(
-                f"{prefix}contact {contact!r} is neither an e-mail address nor an http(s) URL",
-                hint='write contact = "mailto:you@example.org" or "https://example.org/about"',
-            )
-        if _MAILBOX.fullmatch(address) and not contact.startswith("mailto:"):
-            contact = f"mailto:{address}"
-        return cls(contact)
+        checked, problem = check_contact(contact)
+        if checked is None:
+            raise FetchError(f"{prefix}{problem}", hint=CONTACT_HINT)
+        return cls(checked)
 
     @property
     def user_agent(self) -> str:

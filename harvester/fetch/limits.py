@@ -4,7 +4,11 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-__all__ = ["FetchLimits"]
+__all__ = ["ROBOTS_PARSE_LIMIT", "FetchLimits"]
+
+# RFC 9309 §2.5: the parsing limit MUST be at least 500 KiB, which is 512,000 octets; we read
+# exactly that much by default and no more.
+ROBOTS_PARSE_LIMIT = 512_000
 
 
 @dataclass(frozen=True)
@@ -24,6 +28,6 @@ class FetchLimits:
         10  # RFC 9110 §15.4 asks for loop detection; a fixed cap plus a visited set
     )
     robots_max_redirects: int = 5  # RFC 9309 §2.3.1.2: follow at least five
-    robots_parse_limit: int = 512_000  # RFC 9309 §2.5: at least 500 KiB
+    robots_parse_limit: int = ROBOTS_PARSE_LIMIT  # octets of robots.txt parsed (RFC 9309 §2.5)
     schemes: tuple[str, ...] = ("http", "https")
     content_types: tuple[str, ...] = ("text/html", "application/xhtml+xml")

@@ -22,26 +22,26 @@ from dataclasses import dataclass, field
 from urllib.parse import urlsplit
 
 from harvester.errors import HostPausedError
+from harvester.fetch.urls import DEFAULT_PORTS
 
 __all__ = ["DEFAULT_INTERVAL", "HostKey", "HostPacer", "host_key"]
 
 HostKey = tuple[str, str, int]
 DEFAULT_INTERVAL = 1.0  # seconds between starts when robots.txt names no Crawl-delay
-_DEFAULT_PORTS = {"http": 80, "https": 443}
 
 
 def host_key(url: str) -> HostKey:
     """The (scheme, host, port) a URL's requests are paced by; default ports made explicit."""
     parts = urlsplit(url)
     scheme = parts.scheme.lower()
-    port = parts.port or _DEFAULT_PORTS.get(scheme, 0)
+    port = parts.port or DEFAULT_PORTS.get(scheme, 0)
     return scheme, (parts.hostname or "").lower(), port
 
 
 def describe(host: HostKey) -> str:
     """A host key as a URL origin, for messages."""
     scheme, name, port = host
-    default = _DEFAULT_PORTS.get(scheme)
+    default = DEFAULT_PORTS.get(scheme)
     return f"{scheme}://{name}" if port == default else f"{scheme}://{name}:{port}"
 
 
@@ -55,7 +55,6 @@ class _Host:
     failures: int = 0
     paused: str | None = None
     lock: asyncio.Lock = field(default_factory=asyncio.Lock)
-    starts: list[float] = field(default_factory=list)
 
 
 class HostPacer:
@@ -108,13 +107,12 @@ class HostPacer:
         """Why the host is paused, or None."""
         return self._host(host).paused
 
-    def starts(self, host: HostKey) -> list[float]:
-        """Clock readings of every request start on the host, in order."""
-        return list(self._host(host).starts)
-
     @asynccontextmanager
     async def slot(self, host: HostKey) -> AsyncIterator[float]:
-        """Hold the host's one request slot, starting no earlier than its pace allows."""
+        """Hold the host's one request slot, starting no earlier than its pace allows.
+
+        Yields the clock reading at which the request may start.
+        """
         state = self._host(host)
         self._check_paused(host, state)
         async with state.lock:
@@ -124,7 +122,6 @@ class HostPacer:
                 await self._sleep(wait)
             start = self._clock()
             state.spread = 1.0 + self._random.uniform(0.0, self.jitter)
-            state.starts.append(start)
             try:
                 yield start
             finally:

@@ -42,12 +42,11 @@ from dataclasses import dataclass, field
 from urllib.parse import urlsplit
 
 from harvester.errors import FetchError
+from harvester.fetch.limits import ROBOTS_PARSE_LIMIT
+from harvester.fetch.urls import DEFAULT_PORTS
 
 __all__ = ["ROBOTS_PARSE_LIMIT", "RobotsRule", "RobotsTxt", "Verdict", "robots_url"]
 
-# RFC 9309 §2.5: the parsing limit MUST be at least 500 KiB, which is 512,000 octets; we read
-# exactly that much and no more.
-ROBOTS_PARSE_LIMIT = 512_000
 
 _LINE_BREAK = re.compile(r"\r\n|\r|\n")
 # scheme "://" authority (RFC 3986 §3). Without a scheme the input is a path, even "//a".
@@ -67,7 +66,6 @@ _REQUEST_RATE = re.compile(
     r"(\d+(?:\.\d+)?)[ \t]*/[ \t]*(\d+(?:\.\d+)?)[ \t]*([smhSMH]?)(?:[ \t].*)?"
 )
 _UNIT_SECONDS = {"": 1.0, "s": 1.0, "m": 60.0, "h": 3600.0}
-_DEFAULT_PORTS = {"http": 80, "https": 443}
 
 
 @dataclass(frozen=True, slots=True)
@@ -199,19 +197,17 @@ def _interval(value: str) -> float | None:
     return span / float(found.group(1))
 
 
-def _limited_text(content: str | bytes) -> str:
-    """The first ROBOTS_PARSE_LIMIT octets as text, BOM stripped, a cut-off last line dropped."""
+def _limited_text(content: str | bytes, limit: int) -> str:
+    """The first ``limit`` octets as text, BOM stripped, a cut-off last line dropped."""
     if isinstance(content, str):
         # Every character is at least one octet, so this slice still holds >= the limit.
-        content = content[: ROBOTS_PARSE_LIMIT + 1].encode("utf-8", "surrogatepass")
-    data = content[: ROBOTS_PARSE_LIMIT + 1]
-    if len(data) > ROBOTS_PARSE_LIMIT:
-        if data[ROBOTS_PARSE_LIMIT] in b"\r\n":
-            data = data[:ROBOTS_PARSE_LIMIT]  # the last line ends exactly at the limit
+        content = content[: limit + 1].encode("utf-8", "surrogatepass")
+    data = content[: limit + 1]
+    if len(data) > limit:
+        if data[limit] in b"\r\n":
+            data = data[:limit]  # the last line ends exactly at the limit
         else:
-            end = max(
-                data.rfind(b"\n", 0, ROBOTS_PARSE_LIMIT), data.rfind(b"\r", 0, ROBOTS_PARSE_LIMIT)
-            )
+            end = max(data.rfind(b"\n", 0, limit), data.rfind(b"\r", 0, limit))
             data = data[: end + 1]  # drop the cut-off last line (nothing if none ended)
     data = data.removeprefix(b"\xef\xbb\xbf")
     # RFC 9309 §2.2.2 lets us bridge encoding mismatches: bad octets become U+FFFD.
@@ -239,13 +235,16 @@ class RobotsTxt:
         self._selected: dict[str, _Selected] = {}
 
     @classmethod
-    def parse(cls, content: str | bytes) -> RobotsTxt:
-        """Parse a 2xx robots.txt body; every line that parses is used (RFC 9309 §2.3.1.5)."""
+    def parse(cls, content: str | bytes, *, limit: int = ROBOTS_PARSE_LIMIT) -> RobotsTxt:
+        """Parse a 2xx robots.txt body; every line that parses is used (RFC 9309 §2.3.1.5).
+
+        Only the first ``limit`` octets are read (RFC 9309 §2.5; ``FetchLimits`` sets it).
+        """
         groups: list[_Group] = []
         sitemaps: list[str] = []
         current: _Group | None = None
         seen_rule = False  # an allow/disallow since the last user-agent line
-        for number, raw in enumerate(_LINE_BREAK.split(_limited_text(content)), start=1):
+        for number, raw in enumerate(_LINE_BREAK.split(_limited_text(content, limit)), start=1):
             record = _RECORD.fullmatch(raw.split("#", 1)[0])
             if record is None:
                 continue  # empty line or one that does not parse: skipped (§2.3.1.5)
@@ -373,5 +372,5 @@ def robots_url(url: str) -> str:
     scheme = parts.scheme.lower()
     if ":" in host:
         host = f"[{host}]"  # an IPv6 literal keeps its brackets (RFC 3986 §3.2.2)
-    suffix = f":{port}" if port is not None and port != _DEFAULT_PORTS.get(scheme) else ""
+    suffix = f":{port}" if port is not None and port != DEFAULT_PORTS.get(scheme) else ""
     return f"{scheme}://{host}{suffix}/robots.txt"

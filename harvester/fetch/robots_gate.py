@@ -16,6 +16,7 @@ from collections.abc import Awaitable, Callable
 from dataclasses import dataclass
 from typing import Any, Literal
 
+from harvester.fetch.limits import ROBOTS_PARSE_LIMIT
 from harvester.fetch.robots import RobotsTxt, robots_url
 
 __all__ = ["ROBOTS_MAX_AGE", "RobotsAnswer", "RobotsGate"]
@@ -35,13 +36,17 @@ class RobotsAnswer:
 RobotsFetch = Callable[[str], Awaitable[RobotsAnswer]]
 
 
-def interpret(answer: RobotsAnswer, on_429: Literal["unreachable", "unavailable"]) -> RobotsTxt:
-    """The rules an answer stands for, per RFC 9309 §2.3.1."""
+def interpret(
+    answer: RobotsAnswer,
+    on_429: Literal["unreachable", "unavailable"],
+    limit: int = ROBOTS_PARSE_LIMIT,
+) -> RobotsTxt:
+    """The rules an answer stands for, per RFC 9309 §2.3.1 (``limit``: octets parsed, §2.5)."""
     status = answer.status
     if status is None:
         return RobotsTxt.unreachable(answer.detail or "no answer")
     if 200 <= status < 300:
-        return RobotsTxt.parse(answer.body)
+        return RobotsTxt.parse(answer.body, limit=limit)
     if status == 429 and on_429 == "unreachable":
         return RobotsTxt.unreachable(answer.detail or "HTTP 429")
     if 400 <= status < 500:
@@ -60,7 +65,9 @@ class RobotsGate:
         max_age: float = ROBOTS_MAX_AGE,
         on_429: Literal["unreachable", "unavailable"] = "unreachable",
         clock: Callable[[], float] = time.time,
+        parse_limit: int = ROBOTS_PARSE_LIMIT,
     ) -> None:
+        self._parse_limit = parse_limit
         self._fetch = fetch
         self._store = store
         self._max_age = max_age
@@ -84,11 +91,11 @@ class RobotsGate:
         stored = self._store.get(("robots", location)) if self._store is not None else None
         if stored is not None and now - stored[0] <= self._max_age:
             fetched_at, status, body, detail = stored
-            rules = interpret(RobotsAnswer(status, body, detail), self._on_429)
+            rules = interpret(RobotsAnswer(status, body, detail), self._on_429, self._parse_limit)
             self._memory[location] = (fetched_at, rules)
             return rules
         answer = await self._fetch(location)
-        rules = interpret(answer, self._on_429)
+        rules = interpret(answer, self._on_429, self._parse_limit)
         self._memory[location] = (now, rules)
         if self._store is not None:
             self._store.set(("robots", location), (now, answer.status, answer.body, answer.detail))

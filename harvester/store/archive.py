@@ -11,7 +11,6 @@ any URI ``pyarrow.fs.FileSystem.from_uri`` understands (``s3://bucket/prefix``, 
 
 from __future__ import annotations
 
-import json
 import re
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
@@ -23,29 +22,29 @@ import pyarrow.fs as pafs
 import pyarrow.parquet as pq
 
 from harvester.errors import StoreError
-from harvester.store.layout import (
+from harvester.store.contract import (
+    COMMITTED_AT_KEY,
+    DATA_SHA256_KEY,
+    DATASET_NAME,
     PART_FILE,
+    PARTITION_KEY,
+    TABLE_NAME,
     TABLES_DIR,
-    decode_value,
-    open_root,
-    parse_version,
+    StoredPartition,
+    check_dataset_name,
+    check_table_name,
+    damaged,
+    read_provenance,
 )
+from harvester.store.layout import decode_value, open_root, parse_version
+from harvester.timestamps import parse_rfc3339, rfc3339
 
 if TYPE_CHECKING:
-    import pandas  # type: ignore[import-untyped]
+    import pandas
 
 __all__ = ["Archive", "VersionInfo"]
 
-_DATASET = re.compile(r"[a-z0-9][a-z0-9_-]*")  # recipe names (STORE.md, "Layout")
-_TABLE = re.compile(r"[a-z0-9_]+")  # table names (STORE.md, "Layout")
-_KEY = re.compile(r"[a-z][a-z0-9_]*")  # recipe parameter names (harvester.recipe_parameters)
 _INTEGER = re.compile(r"-?[0-9]+")
-_COMMITTED_AT = b"harvester.committed_at"
-_DATA_SHA256 = b"harvester.data_sha256"
-_PROVENANCE = b"harvester.provenance"
-_DAMAGED = "the file is damaged or not harvester's; move its version folder out of the archive"
-
-Partition = tuple[tuple[str, str | None], ...]
 
 
 @dataclass(frozen=True)
@@ -54,12 +53,25 @@ class VersionInfo:
 
     dataset: str
     table: str
-    partition: Partition  # (key, decoded value) pairs in directory order; None for a null value
+    partition: StoredPartition  # (key, decoded value) pairs in folder order; None for null
     version: int
     path: str  # in the archive's filesystem: a local path, or "bucket/key…" for s3:// and the like
     rows: int
     committed_at: datetime  # aware, UTC
     data_sha256: str
+
+    def to_dict(self) -> dict[str, object]:
+        """The version as plain JSON values (``committed_at`` as RFC 3339 UTC)."""
+        return {
+            "dataset": self.dataset,
+            "table": self.table,
+            "partition": dict(self.partition),
+            "version": self.version,
+            "rows": self.rows,
+            "committed_at": rfc3339(self.committed_at),
+            "data_sha256": self.data_sha256,
+            "path": self.path,
+        }
 
 
 @dataclass(frozen=True)
@@ -67,7 +79,7 @@ class _Found:
     """A visible ``part-0.parquet`` found by listing, before its footer is read."""
 
     table: str
-    partition: Partition
+    partition: StoredPartition
     version: int
     fs_path: str  # the path as the filesystem knows it (VersionInfo.path)
     shown: str  # the path as messages give it: under the user's URI for a URI root
@@ -91,7 +103,7 @@ class Archive:
 
     def tables(self, dataset: str) -> list[str]:
         """The tables of ``dataset`` that hold at least one visible version, sorted."""
-        _check_name("dataset", dataset, _DATASET)
+        check_dataset_name(dataset)
         names = sorted({found.table for found in self._scan(dataset)})
         if not names:
             raise self._unknown_dataset(dataset)
@@ -205,9 +217,9 @@ class Archive:
                 yield info.path[len(prefix) + 1 :], info.path
 
     def _found(self, dataset: str, table: str | None) -> list[_Found]:
-        _check_name("dataset", dataset, _DATASET)
+        check_dataset_name(dataset)
         if table is not None:
-            _check_name("table", table, _TABLE)
+            check_table_name(table)
         found = self._scan(dataset, table)
         if not found:
             listed = ", ".join(self.tables(dataset))  # raises if the dataset is unknown
@@ -233,23 +245,19 @@ class Archive:
         try:
             return pq.read_metadata(item.fs_path, filesystem=self._fs)
         except (OSError, pa.ArrowInvalid) as exc:
-            raise StoreError(f"{item.shown}: cannot read the footer: {exc}", hint=_DAMAGED) from exc
+            raise damaged(item.shown, f"cannot read the footer: {exc}") from exc
 
     def _info(self, dataset: str, item: _Found) -> VersionInfo:
         meta = self._footer(item)
         kv: dict[bytes, bytes] = meta.metadata or {}
-        for key in (_COMMITTED_AT, _DATA_SHA256):
-            if key not in kv:
-                raise StoreError(f"{item.shown}: no {key.decode()} in the footer", hint=_DAMAGED)
+        for key in (COMMITTED_AT_KEY, DATA_SHA256_KEY):
+            if key.encode() not in kv:
+                raise damaged(item.shown, f"no {key} in the footer")
         try:
-            committed_at = datetime.fromisoformat(kv[_COMMITTED_AT].decode())
-            if committed_at.utcoffset() is None:
-                raise ValueError("it has no UTC offset")
+            committed_at = parse_rfc3339(kv[COMMITTED_AT_KEY.encode()].decode())
         except (UnicodeDecodeError, ValueError) as exc:
-            raise StoreError(
-                f"{item.shown}: harvester.committed_at is not an RFC 3339 time: {exc}",
-                hint=_DAMAGED,
-            ) from exc
+            problem = f"{COMMITTED_AT_KEY} is not an RFC 3339 time: {exc}"
+            raise damaged(item.shown, problem) from exc
         return VersionInfo(
             dataset=dataset,
             table=item.table,
@@ -258,7 +266,7 @@ class Archive:
             path=item.fs_path,
             rows=meta.num_rows,
             committed_at=committed_at,
-            data_sha256=kv[_DATA_SHA256].decode(),
+            data_sha256=kv[DATA_SHA256_KEY.encode()].decode(),
         )
 
     def _read_file(self, item: _Found) -> tuple[_Found, pa.Table, dict[str, Any]]:
@@ -267,25 +275,20 @@ class Archive:
             with self._fs.open_input_file(item.fs_path) as handle:
                 data = pq.ParquetFile(handle).read()
         except (OSError, pa.ArrowInvalid) as exc:
-            raise StoreError(f"{item.shown}: cannot read: {exc}", hint=_DAMAGED) from exc
-        return item, data, _provenance_partition(data.schema.metadata)
+            raise damaged(item.shown, f"cannot read: {exc}") from exc
+        return item, data, _provenance_partition(data.schema.metadata, item.shown)
 
     def _empty(self, name: str, latest: list[_Found], keys: list[str]) -> pa.Table:
         """An empty table with the columns the latest versions would give."""
         schemas = [self._footer(item).schema.to_arrow_schema() for item in latest]
-        provenance = [_provenance_partition(schema.metadata) for schema in schemas]
+        provenance = [
+            _provenance_partition(schema.metadata, item.shown)
+            for schema, item in zip(schemas, latest, strict=True)
+        ]
         fields = list(_unify(name, schemas, keys))
         fields += [pa.field(key, _key_type(key, provenance)) for key in keys]
         fields.append(pa.field("version", pa.int32()))
         return pa.schema(fields).empty_table()
-
-
-def _check_name(kind: str, name: str, pattern: re.Pattern[str]) -> None:
-    if not pattern.fullmatch(name):
-        raise StoreError(
-            f"invalid {kind} name {name!r}",
-            hint="dataset names are recipe names ([a-z0-9][a-z0-9_-]*); table names are [a-z0-9_]+",
-        )
 
 
 def _parse(rel: str, fs_path: str, shown: str) -> tuple[str, _Found] | None:
@@ -295,18 +298,18 @@ def _parse(rel: str, fs_path: str, shown: str) -> tuple[str, _Found] | None:
         return None
     dataset, table, *middle, version_segment, _ = segments
     version = parse_version(version_segment)
-    if version is None or not _DATASET.fullmatch(dataset) or not _TABLE.fullmatch(table):
+    if version is None or not DATASET_NAME.fullmatch(dataset) or not TABLE_NAME.fullmatch(table):
         return None
     partition: list[tuple[str, str | None]] = []
     for segment in middle:
         key, sep, raw = segment.partition("=")
-        if not sep or not _KEY.fullmatch(key):
+        if not sep or not PARTITION_KEY.fullmatch(key):
             return None  # not part of the layout (a hand-made or staging folder): not a version
         partition.append((key, decode_value(raw)))
     return dataset, _Found(table, tuple(partition), version, fs_path, shown)
 
 
-def _partition_order(partition: Partition) -> tuple[tuple[str, int, int, str], ...]:
+def _partition_order(partition: StoredPartition) -> tuple[tuple[str, int, int, str], ...]:
     """Sort key: integers numerically, then text, then null (so 9 sorts before 10)."""
     order = []
     for key, value in partition:
@@ -321,7 +324,7 @@ def _partition_order(partition: Partition) -> tuple[tuple[str, int, int, str], .
 
 def _latest(items: Iterable[_Found]) -> list[_Found]:
     """The highest version of each (table, partition) among ``items``, in listing order."""
-    best: dict[tuple[str, Partition], _Found] = {}
+    best: dict[tuple[str, StoredPartition], _Found] = {}
     for item in items:
         slot = (item.table, item.partition)
         if slot not in best or item.version > best[slot].version:
@@ -336,16 +339,9 @@ def _keys(found: list[_Found]) -> list[str]:
     return keys
 
 
-def _provenance_partition(metadata: Mapping[bytes, bytes] | None) -> dict[str, Any]:
-    """The ``partition`` object of ``harvester.provenance``, or {} when absent or unreadable."""
-    raw = (metadata or {}).get(_PROVENANCE)
-    if raw is None:
-        return {}
-    try:
-        provenance = json.loads(raw)
-    except ValueError:
-        return {}
-    partition = provenance.get("partition") if isinstance(provenance, dict) else None
+def _provenance_partition(metadata: Mapping[bytes, bytes] | None, shown: str) -> dict[str, Any]:
+    """The ``partition`` object of ``harvester.provenance``, or {} when it has none."""
+    partition = read_provenance(metadata, shown).get("partition")
     return partition if isinstance(partition, dict) else {}
 
 
@@ -402,11 +398,8 @@ def _combine(
             value = values.get(key)
             if value is not None and types[key] == pa.int64():
                 if not _INTEGER.fullmatch(value):
-                    raise StoreError(
-                        f"{item.shown}: folder value {key}={value!r} is not the integer its "
-                        "harvester.provenance gives",
-                        hint=_DAMAGED,
-                    )
+                    problem = f"folder value {key}={value!r} is not the integer its footer gives"
+                    raise damaged(item.shown, problem)
                 columns.append(pa.array([int(value)] * rows, pa.int64()))
             else:
                 columns.append(pa.array([value] * rows, types[key]))

@@ -1,4 +1,4 @@
-"""Compare a new harvest of a table with the previous version and report schema and size drift.
+"""Drift checks: how a new harvest of a table differs in schema and size from the last version.
 
 Only data columns count (names not starting with "_"; the "_"-prefixed ones are provenance that
 changes on every harvest). The report lists added, removed and retyped columns, pairs of a removed
@@ -19,16 +19,12 @@ from dataclasses import dataclass
 
 import pyarrow as pa
 
-__all__ = ["RENAME_RATIO", "DriftReport", "compare", "data_columns"]
+from harvester.store.contract import data_columns
+
+__all__ = ["RENAME_RATIO", "DriftReport", "detect_drift"]
 
 RENAME_RATIO = 0.8
 """Names at least this similar (difflib ratio) and of the same type look like a rename."""
-
-
-def data_columns(table: pa.Table | pa.Schema) -> list[str]:
-    """The data column names of a table or schema, in order (names not starting with "_")."""
-    names = table.names if isinstance(table, pa.Schema) else table.column_names
-    return [name for name in names if not name.startswith("_")]
 
 
 @dataclass(frozen=True)
@@ -118,7 +114,7 @@ def _pair_renames(
     return pairs
 
 
-def compare(
+def detect_drift(
     old: pa.Table | None, new: pa.Table, *, min_rows: int | None, max_rows: int | None
 ) -> DriftReport:
     """Report drift from ``old`` (the previous version, or None) to ``new``.

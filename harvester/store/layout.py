@@ -1,4 +1,4 @@
-"""Paths of the archive: names, partition segments, version folders and the archive root.
+"""Paths of the archive: partition segments, version folders and the archive root.
 
 Layout (Hive-style, one Parquet file per version)::
 
@@ -29,14 +29,17 @@ from urllib.parse import quote, unquote
 import pyarrow.fs as pafs
 
 from harvester.errors import StoreError
+from harvester.store.contract import (
+    NULL_SEGMENT,
+    TABLES_DIR,
+    PartitionValue,
+    StoredPartition,
+    check_dataset_name,
+    check_partition_key,
+    check_table_name,
+)
 
 __all__ = [
-    "INPROGRESS_FILE",
-    "LOCK_FILE",
-    "NULL_SEGMENT",
-    "PART_FILE",
-    "TABLES_DIR",
-    "Partition",
     "decode_value",
     "encode_value",
     "join",
@@ -44,27 +47,15 @@ __all__ = [
     "open_root",
     "parse_version",
     "partition_path",
+    "show_partition",
     "version_dir",
 ]
 
-Partition = Sequence[tuple[str, str | int | None]]
-
-TABLES_DIR = "tables"
-LOCK_FILE = ".lock"
-PART_FILE = "part-0.parquet"
-# Dot prefix: pyarrow's discovery skips it (ignore_prefixes); suffix: `**/*.parquet` misses it.
-INPROGRESS_FILE = ".part-0.parquet.inprogress"
-NULL_SEGMENT = "__HIVE_DEFAULT_PARTITION__"
-
-_DATASET = re.compile(r"[a-z0-9][a-z0-9_-]*")
-_TABLE = re.compile(r"[a-z0-9_]+")
-# Keys are recipe parameter names; a leading "_" or "." would also hide the folder from pyarrow.
-_KEY = re.compile(r"[a-z][a-z0-9_]*")
 _VERSION = re.compile(r"version=([1-9][0-9]*)")
 _NAME_MAX = 255  # bytes in one file name on ext4, xfs, btrfs, APFS (common practice)
 
 
-def encode_value(value: str | int | None) -> str:
+def encode_value(value: PartitionValue) -> str:
     """The folder text of one partition value: percent-encoded, or the null marker for None."""
     if value is None:
         return NULL_SEGMENT
@@ -96,27 +87,8 @@ def decode_value(segment: str) -> str | None:
     return None if value == NULL_SEGMENT else value
 
 
-def _check_names(dataset: str, table: str) -> None:
-    if not _DATASET.fullmatch(dataset):
-        raise StoreError(
-            f"dataset name {dataset!r} is not valid",
-            hint="use the recipe name: lowercase letters, digits, '_' and '-', not starting with"
-            " '_' or '-'",
-        )
-    if not _TABLE.fullmatch(table):
-        raise StoreError(
-            f"table name {table!r} is not valid",
-            hint="use lowercase letters, digits and '_'",
-        )
-
-
-def _segment(key: str, value: str | int | None) -> str:
-    if not _KEY.fullmatch(key) or key == "version":
-        raise StoreError(
-            f"partition key {key!r} is not valid",
-            hint="use a recipe parameter name (lowercase, digits, '_', starting with a letter),"
-            " other than 'version'",
-        )
+def _segment(key: str, value: PartitionValue) -> str:
+    check_partition_key(key)
     segment = f"{key}={encode_value(value)}"
     if len(segment.encode()) > _NAME_MAX:
         raise StoreError(
@@ -127,13 +99,23 @@ def _segment(key: str, value: str | int | None) -> str:
     return segment
 
 
-def partition_path(dataset: str, table: str, partition: Partition) -> str:
+def partition_path(
+    dataset: str, table: str, partition: Sequence[tuple[str, PartitionValue]]
+) -> str:
     """The partition's folder relative to the archive root: ``tables/<dataset>/<table>/k=v/…``."""
-    _check_names(dataset, table)
+    check_dataset_name(dataset)
+    check_table_name(table)
     keys = [key for key, _ in partition]
     if len(set(keys)) != len(keys):
         raise StoreError(f"partition keys {keys} repeat a key", hint="list each partition key once")
     return join(TABLES_DIR, dataset, table, *(_segment(k, v) for k, v in partition))
+
+
+def show_partition(partition: StoredPartition) -> str:
+    """``season=2019/phase=final`` (decoded values; null as Hive's marker; "-" for none)."""
+    if not partition:
+        return "-"
+    return "/".join(f"{key}={NULL_SEGMENT if value is None else value}" for key, value in partition)
 
 
 def version_dir(version: int) -> str:

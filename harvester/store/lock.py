@@ -21,25 +21,20 @@ import os
 import socket
 import time
 from dataclasses import dataclass
-from datetime import UTC, datetime
 
 import pyarrow.fs as pafs
 
 from harvester.errors import StoreError
-from harvester.provenance import rfc3339
-from harvester.store.layout import LOCK_FILE, join, local_path
+from harvester.store.contract import LOCK_FILE
+from harvester.store.layout import join, local_path
+from harvester.timestamps import now_rfc3339
 
-__all__ = ["WRITE_GRACE_S", "ArchiveLock", "LockHolder", "now_rfc3339", "pid_alive"]
+__all__ = ["WRITE_GRACE_S", "ArchiveLock", "LockHolder", "pid_alive"]
 
 WRITE_GRACE_S = 2.0
 """A lock file still without JSON this many seconds after it was made has lost its writer."""
 
 _ATTEMPTS = 100
-
-
-def now_rfc3339() -> str:
-    """The current UTC time as RFC 3339 §5.6 text with microseconds and "Z"."""
-    return rfc3339(datetime.now(UTC))
 
 
 def pid_alive(pid: int) -> bool:

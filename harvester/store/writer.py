@@ -32,12 +32,20 @@ import pyarrow.fs as pafs
 import pyarrow.parquet as pq
 
 from harvester.errors import StoreError
-from harvester.provenance import PROVENANCE_FIELDS
-from harvester.store.drift import DriftReport, compare
-from harvester.store.layout import (
+from harvester.store.contract import (
+    COMMITTED_AT_KEY,
+    DATA_SHA256_KEY,
     INPROGRESS_FILE,
     PART_FILE,
+    PROVENANCE_COLUMNS,
+    PROVENANCE_KEY,
     Partition,
+    PartitionValue,
+    damaged,
+    data_columns,
+)
+from harvester.store.drift import DriftReport, detect_drift
+from harvester.store.layout import (
     join,
     local_path,
     open_root,
@@ -45,35 +53,20 @@ from harvester.store.layout import (
     partition_path,
     version_dir,
 )
-from harvester.store.lock import ArchiveLock, now_rfc3339
+from harvester.store.lock import ArchiveLock
+from harvester.timestamps import now_rfc3339, rfc3339
 
-__all__ = [
-    "COMMITTED_AT_KEY",
-    "DATA_SHA256_KEY",
-    "PROVENANCE_COLUMNS",
-    "PROVENANCE_KEY",
-    "ArchiveWriter",
-    "CommitResult",
-    "DriftPolicy",
-    "data_sha256",
-]
+__all__ = ["ArchiveWriter", "CommitResult", "CommitStatus", "DriftPolicy", "data_sha256"]
 
 DriftPolicy = Literal["refuse", "warn", "accept"]
-
-DATA_SHA256_KEY = "harvester.data_sha256"
-COMMITTED_AT_KEY = "harvester.committed_at"
-PROVENANCE_KEY = "harvester.provenance"
-
-# The archive contract's provenance columns (harvester/provenance.py is their one definition).
-PROVENANCE_COLUMNS: dict[str, pa.DataType] = {field.name: field.type for field in PROVENANCE_FIELDS}
-"""The provenance columns every file carries after its data columns, in this order."""
+CommitStatus = Literal["new", "unchanged", "refused"]
 
 _POLICIES = ("refuse", "warn", "accept")
 
 
 def data_sha256(table: pa.Table) -> str:
     """Hex SHA-256 of the Arrow IPC stream of the table's data columns (not "_"-prefixed)."""
-    names = [name for name in table.column_names if not name.startswith("_")]
+    names = data_columns(table)
     data = table.select(names).replace_schema_metadata(None).combine_chunks()
     sink = pa.BufferOutputStream()
     with pa.ipc.new_stream(sink, data.schema) as stream:
@@ -87,8 +80,8 @@ class CommitResult:
 
     dataset: str
     table: str
-    partition: tuple[tuple[str, str | int | None], ...]
-    status: Literal["new", "unchanged", "refused"]
+    partition: Partition
+    status: CommitStatus
     version: int  # the new version, or the latest one when unchanged/refused (0 if none)
     rows: int
     path: str | None  # the file written (None when unchanged/refused)
@@ -129,7 +122,7 @@ class ArchiveWriter:
         self,
         dataset: str,
         table: str,
-        partition: Partition,
+        partition: Sequence[tuple[str, PartitionValue]],
         data: pa.Table,
         *,
         provenance: Mapping[str, object],
@@ -139,6 +132,51 @@ class ArchiveWriter:
         max_rows: int | None = None,
     ) -> CommitResult:
         """Write ``data`` as the next version of the partition, unless unchanged or refused."""
+        self._check_can_commit(drift_policy)
+        part: Partition = tuple(partition)
+        folder = join(self._base, partition_path(dataset, table, part))
+        where = _where(dataset, table, part)
+        arranged = _arrange(data, part, key, where)
+        sha = data_sha256(arranged)
+
+        def result(
+            status: CommitStatus,
+            version: int,
+            message: str,
+            path: str | None = None,
+            drift: DriftReport | None = None,
+        ) -> CommitResult:
+            rows = arranged.num_rows
+            return CommitResult(dataset, table, part, status, version, rows, path, drift, message)
+
+        latest = self._latest_version(folder)
+        previous = self._previous(folder, latest, sha) if latest else None
+        if latest and previous is None:
+            return result(
+                "unchanged", latest, f"{where}: unchanged, checked against version {latest}"
+            )
+        report = detect_drift(previous, arranged, min_rows=min_rows, max_rows=max_rows)
+        drifted = report.changed or bool(report.row_problems)
+        shown = report if previous is not None or drifted else None
+        if drifted and drift_policy == "refuse":
+            kept = f"version {latest} kept" if latest else "nothing written"
+            message = f"{where}: refused, {report.summary()}; {kept} (drift policy refuse)"
+            return result("refused", latest, message, drift=shown)
+        version = latest + 1
+        committed_at = now_rfc3339()
+        body = _provenance_json(
+            provenance, arranged, dataset, table, part, version, committed_at, key, where
+        )
+        meta = {DATA_SHA256_KEY: sha, COMMITTED_AT_KEY: committed_at, PROVENANCE_KEY: body}
+        path = self._publish(
+            folder, version, arranged.replace_schema_metadata(meta), fresh=not latest
+        )
+        message = f"{where}: version {version} written, {arranged.num_rows} rows"
+        if drifted and drift_policy == "warn":
+            message += f"; {report.summary()} (drift policy warn)"
+        return result("new", version, message, path=path, drift=shown)
+
+    def _check_can_commit(self, drift_policy: str) -> None:
         if not self._held:
             raise StoreError(
                 f"archive {self.root}: commit outside the writer's lock",
@@ -149,61 +187,18 @@ class ArchiveWriter:
                 f"drift policy {drift_policy!r} is not one of {', '.join(_POLICIES)}",
                 hint="set [store] drift to refuse, warn or accept",
             )
-        part = tuple(partition)
-        folder = join(self._base, partition_path(dataset, table, part))
-        where = _where(dataset, table, part)
-        arranged = _arrange(data, part, key, where)
-        sha = data_sha256(arranged)
 
-        def result(
-            status: Literal["new", "unchanged", "refused"],
-            version: int,
-            message: str,
-            path: str | None = None,
-            drift: DriftReport | None = None,
-        ) -> CommitResult:
-            rows = arranged.num_rows
-            return CommitResult(dataset, table, part, status, version, rows, path, drift, message)
-
-        latest = self._latest_version(folder)
-        previous: pa.Table | None = None
-        if latest:
-            with self.filesystem.open_input_file(join(folder, version_dir(latest), PART_FILE)) as f:
-                stored = (pq.read_schema(f).metadata or {}).get(DATA_SHA256_KEY.encode())
+    def _previous(self, folder: str, latest: int, sha: str) -> pa.Table | None:
+        """The latest version's table, or None when its data equals ``sha`` (nothing to write)."""
+        path = join(folder, version_dir(latest), PART_FILE)
+        try:
+            with self.filesystem.open_input_file(path) as handle:
+                stored = (pq.read_schema(handle).metadata or {}).get(DATA_SHA256_KEY.encode())
                 if stored == sha.encode():
-                    return result(
-                        "unchanged",
-                        latest,
-                        message=f"{where}: unchanged, checked against version {latest}",
-                    )
-                previous = pq.read_table(f)
-        report = compare(previous, arranged, min_rows=min_rows, max_rows=max_rows)
-        drifted = report.changed or bool(report.row_problems)
-        shown = report if previous is not None or drifted else None
-        if drifted and drift_policy == "refuse":
-            kept = f"version {latest} kept" if latest else "nothing written"
-            return result(
-                "refused",
-                latest,
-                drift=shown,
-                message=f"{where}: refused, {report.summary()}; {kept} (drift policy refuse)",
-            )
-        version = latest + 1
-        committed_at = now_rfc3339()
-        meta = {
-            DATA_SHA256_KEY: sha,
-            COMMITTED_AT_KEY: committed_at,
-            PROVENANCE_KEY: _provenance_json(
-                provenance, arranged, dataset, table, part, version, committed_at, key, where
-            ),
-        }
-        path = self._publish(
-            folder, version, arranged.replace_schema_metadata(meta), fresh=not latest
-        )
-        message = f"{where}: version {version} written, {arranged.num_rows} rows"
-        if drifted and drift_policy == "warn":
-            message += f"; {report.summary()} (drift policy warn)"
-        return result("new", version, path=path, drift=shown, message=message)
+                    return None
+                return pq.read_table(handle)
+        except (OSError, pa.ArrowInvalid) as exc:
+            raise damaged(path, f"cannot read the latest version: {exc}") from exc
 
     def _latest_version(self, folder: str) -> int:
         """The highest version of the partition whose part-0.parquet exists (0 if none)."""
@@ -292,7 +287,7 @@ def _arrange(data: pa.Table, partition: Partition, key: Sequence[str], where: st
                 f" expected {wanted}",
                 hint="build the provenance columns with the archive's types",
             )
-    columns = [n for n in names if not n.startswith("_")]
+    columns = data_columns(data)
     clash = [n for n in columns if n == "version" or n in {k for k, _ in partition}]
     if clash:
         raise StoreError(
@@ -310,8 +305,10 @@ def _arrange(data: pa.Table, partition: Partition, key: Sequence[str], where: st
 
 
 def _json_default(value: object) -> object:
+    if isinstance(value, datetime) and value.utcoffset() is not None:
+        return rfc3339(value)
     if isinstance(value, datetime):
-        return value.isoformat(timespec="microseconds").replace("+00:00", "Z")
+        return value.isoformat()
     if isinstance(value, date):
         return value.isoformat()
     if isinstance(value, set | frozenset):

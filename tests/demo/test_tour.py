@@ -20,7 +20,8 @@ from harvester.demo.tour import DemoRun, run_demo
 def latest(root: Path, dataset: str, table: str) -> list[dict[str, object]]:
     """Rows of the only version of the 2026 partition, read with pyarrow (not our reader)."""
     path = root / "tables" / dataset / table / "season=2026" / "version=1" / "part-0.parquet"
-    return pq.read_table(path).to_pylist()
+    rows: list[dict[str, object]] = pq.read_table(path).to_pylist()
+    return rows
 
 
 @pytest.fixture(scope="module")

@@ -11,7 +11,7 @@ from __future__ import annotations
 import io
 from typing import Any
 
-import pandas as pd  # type: ignore[import-untyped]  # no pandas-stubs in the venv
+import pandas as pd
 import pytest
 from selectolax.lexbor import LexborHTMLParser
 

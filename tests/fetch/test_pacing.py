@@ -52,13 +52,15 @@ def test_starts_on_one_host_are_never_closer_than_the_interval() -> None:
     pace = pacer(clock, jitter=0.1)
     pace.set_interval(A, 0.5)
 
+    starts: list[float] = []
+
     async def many() -> None:
         for _ in range(10):
-            async with pace.slot(A):
+            async with pace.slot(A) as start:
+                starts.append(start)
                 await clock.sleep(0.25)  # the request takes a while
 
     run(many())
-    starts = pace.starts(A)
     gaps = [later - earlier for earlier, later in itertools.pairwise(starts)]
     assert len(gaps) == 9
     # Counted from the end of the previous request (0.25 s long), jitter only adding.
@@ -94,15 +96,16 @@ def test_different_hosts_do_not_wait_for_each_other() -> None:
     pace.set_interval(A, 10.0)
     pace.set_interval(B, 10.0)
 
+    starts: list[tuple[tuple[str, str, int], float]] = []
+
     async def both() -> None:
-        async with pace.slot(A):
-            pass
-        async with pace.slot(B):
-            pass
+        async with pace.slot(A) as start:
+            starts.append((A, start))
+        async with pace.slot(B) as start:
+            starts.append((B, start))
 
     run(both())
-    assert pace.starts(A) == [100.0]
-    assert pace.starts(B) == [100.0]
+    assert starts == [(A, 100.0), (B, 100.0)]
 
 
 def test_retry_after_holds_the_host_and_raises_the_interval() -> None:
@@ -110,16 +113,18 @@ def test_retry_after_holds_the_host_and_raises_the_interval() -> None:
     pace = pacer(clock, jitter=0.0)
     pace.set_interval(A, 1.0)
 
+    starts: list[float] = []
+
     async def scenario() -> None:
-        async with pace.slot(A):
-            pass
+        async with pace.slot(A) as start:
+            starts.append(start)
         waited = pace.back_off(A, retry_after=7.0)  # RFC 9110 §10.2.3
         assert waited == 7.0
-        async with pace.slot(A):
-            pass
+        async with pace.slot(A) as start:
+            starts.append(start)
 
     run(scenario())
-    first, second = pace.starts(A)
+    first, second = starts
     assert second - first == pytest.approx(7.0)
     assert pace.interval(A) == 2.0  # doubled from the base of 1 s
 
@@ -146,14 +151,16 @@ def test_circuit_breaker_pauses_only_the_failing_host() -> None:
     assert pace.failed(A, "timed out")
     assert pace.paused(A) is not None and "timed out" in (pace.paused(A) or "")
 
+    started: list[tuple[str, str, int]] = []
+
     async def try_host(host: tuple[str, str, int]) -> None:
         async with pace.slot(host):
-            pass
+            started.append(host)
 
     with pytest.raises(HostPausedError, match="3 consecutive failures"):
         run(try_host(A))
     run(try_host(B))  # the other host goes on
-    assert len(pace.starts(B)) == 1
+    assert started == [B]
 
 
 def test_a_success_resets_the_failure_count() -> None:

@@ -62,7 +62,8 @@ def slow_fsync(fd):
 
 pq.write_table, os.fsync = slow_write, slow_fsync
 
-from harvester.store.writer import ArchiveWriter, PROVENANCE_COLUMNS
+from harvester.store.contract import PROVENANCE_COLUMNS
+from harvester.store.writer import ArchiveWriter
 
 root, run = sys.argv[1], int(sys.argv[2])
 T = datetime(2026, 3, 1, 12, 0, tzinfo=UTC)

@@ -11,7 +11,7 @@ from __future__ import annotations
 import pyarrow as pa
 import pytest
 
-from harvester.store.drift import DriftReport, compare
+from harvester.store.drift import DriftReport, detect_drift
 
 
 def test_the_example_from_the_brief_rename_by_name_and_too_few_rows() -> None:
@@ -21,7 +21,7 @@ def test_the_example_from_the_brief_rename_by_name_and_too_few_rows() -> None:
     )
     # "shooting_pct" vs "shot_pct": blocks "_pct" (4) + "sho" (3) + "t" (1) = 8 of 12 + 8
     # characters, ratio 2*8/20 = 0.8, at the threshold; values differ, so it is the name rule.
-    report = compare(old, new, min_rows=10, max_rows=None)
+    report = detect_drift(old, new, min_rows=10, max_rows=None)
     assert report.renamed == (("shooting_pct", "shot_pct"),)
     assert report.added == ()
     assert report.removed == ()
@@ -37,7 +37,7 @@ def test_equal_values_pair_columns_whose_names_differ() -> None:
     old = pa.table({"player": ["A. Holm", "B. Lind"], "goals": [12, 7]})
     new = pa.table({"player": ["A. Holm", "B. Lind"], "g": [12, 7]})
     # "goals" vs "g": ratio 2*1/6 = 0.33, so only the equal values can pair them.
-    report = compare(old, new, min_rows=None, max_rows=None)
+    report = detect_drift(old, new, min_rows=None, max_rows=None)
     assert report.renamed == (("goals", "g"),)
     assert (report.added, report.removed) == ((), ())
 
@@ -45,7 +45,7 @@ def test_equal_values_pair_columns_whose_names_differ() -> None:
 def test_unrelated_names_with_different_values_are_added_and_removed() -> None:
     old = pa.table({"player": ["A. Holm"], "goals": [12]})
     new = pa.table({"player": ["A. Holm"], "assists": [3]})
-    report = compare(old, new, min_rows=None, max_rows=None)
+    report = detect_drift(old, new, min_rows=None, max_rows=None)
     assert report.added == ("assists",)
     assert report.removed == ("goals",)
     assert report.renamed == ()
@@ -55,7 +55,7 @@ def test_unrelated_names_with_different_values_are_added_and_removed() -> None:
 def test_close_names_of_different_types_are_not_a_rename() -> None:
     old = pa.table({"shooting_pct": pa.array([0.5], pa.float64())})
     new = pa.table({"shot_pct": pa.array(["50%"], pa.string())})
-    report = compare(old, new, min_rows=None, max_rows=None)
+    report = detect_drift(old, new, min_rows=None, max_rows=None)
     assert report.renamed == ()
     assert report.removed == ("shooting_pct",)
     assert report.added == ("shot_pct",)
@@ -65,7 +65,7 @@ def test_names_just_below_the_ratio_are_not_paired() -> None:
     # "wins" vs "won": "w" + "n" match, 2*2/7 = 0.57 < 0.8.
     old = pa.table({"wins": [3]})
     new = pa.table({"won": [4]})
-    report = compare(old, new, min_rows=None, max_rows=None)
+    report = detect_drift(old, new, min_rows=None, max_rows=None)
     assert report.renamed == ()
     assert (report.removed, report.added) == (("wins",), ("won",))
 
@@ -73,7 +73,7 @@ def test_names_just_below_the_ratio_are_not_paired() -> None:
 def test_type_change_names_both_arrow_types() -> None:
     old = pa.table({"club": ["Harrowby HC"], "goals": pa.array([31], pa.int64())})
     new = pa.table({"club": ["Harrowby HC"], "goals": pa.array(["31"], pa.string())})
-    report = compare(old, new, min_rows=None, max_rows=None)
+    report = detect_drift(old, new, min_rows=None, max_rows=None)
     # str() of a pyarrow DataType is its type name (pyarrow docs, "Data Types and Schemas").
     assert report.type_changed == (("goals", "int64", "string"),)
     assert report.summary() == "drift: type of goals changed from int64 to string"
@@ -84,7 +84,7 @@ def test_provenance_columns_are_ignored() -> None:
     new = pa.table(
         {"club": ["Ostermoor"], "_final_url": ["http://127.0.0.1/x"], "_source_row": ["0"]}
     )
-    report = compare(old, new, min_rows=None, max_rows=None)
+    report = detect_drift(old, new, min_rows=None, max_rows=None)
     assert report == DriftReport()
     assert not report.changed
     assert report.summary() == "no drift"
@@ -92,8 +92,8 @@ def test_provenance_columns_are_ignored() -> None:
 
 def test_first_version_checks_only_row_bounds() -> None:
     new = pa.table({"club": ["Ostermoor", "Wendelstrand", "Kalvik"]})
-    assert compare(None, new, min_rows=None, max_rows=None) == DriftReport()
-    report = compare(None, new, min_rows=4, max_rows=None)
+    assert detect_drift(None, new, min_rows=None, max_rows=None) == DriftReport()
+    report = detect_drift(None, new, min_rows=4, max_rows=None)
     assert report == DriftReport(row_problems=("3 rows < min_rows 4",))
 
 
@@ -110,7 +110,7 @@ def test_row_bounds(
     rows: int, min_rows: int | None, max_rows: int | None, problems: tuple[str, ...]
 ) -> None:
     table = pa.table({"n": list(range(rows))})
-    report = compare(table, table, min_rows=min_rows, max_rows=max_rows)
+    report = detect_drift(table, table, min_rows=min_rows, max_rows=max_rows)
     assert report.row_problems == problems
     assert report.changed is bool(problems)
 
@@ -118,7 +118,7 @@ def test_row_bounds(
 def test_each_column_is_in_at_most_one_pair() -> None:
     old = pa.table({"alpha": [1, 2], "beta": [1, 2]})
     new = pa.table({"gamma": [1, 2]})
-    report = compare(old, new, min_rows=None, max_rows=None)
+    report = detect_drift(old, new, min_rows=None, max_rows=None)
     # Both old columns equal the new one; the first in the old order takes it.
     assert report.renamed == (("alpha", "gamma"),)
     assert report.removed == ("beta",)
@@ -129,24 +129,24 @@ def test_value_matches_are_paired_before_name_matches() -> None:
     old = pa.table({"goal": [4, 9]})
     new = pa.table({"goals": [5, 6], "scored": [4, 9]})
     # "goal"/"goals" ratio 2*4/9 = 0.89 would pair by name, but "scored" holds equal values.
-    report = compare(old, new, min_rows=None, max_rows=None)
+    report = detect_drift(old, new, min_rows=None, max_rows=None)
     assert report.renamed == (("goal", "scored"),)
     assert report.added == ("goals",)
 
 
 def test_all_null_or_reordered_or_shorter_columns_do_not_pair_by_values() -> None:
-    nulls = compare(
+    nulls = detect_drift(
         pa.table({"notes": pa.array([None, None], pa.string())}),
         pa.table({"remark": pa.array([None, None], pa.string())}),
         min_rows=None,
         max_rows=None,
     )
     assert nulls.renamed == ()
-    reordered = compare(
+    reordered = detect_drift(
         pa.table({"tally": [1, 2]}), pa.table({"score": [2, 1]}), min_rows=None, max_rows=None
     )
     assert reordered.renamed == ()
-    shorter = compare(
+    shorter = detect_drift(
         pa.table({"tally": [1, 2]}), pa.table({"score": [1]}), min_rows=None, max_rows=None
     )
     assert shorter.renamed == ()
@@ -157,7 +157,7 @@ def test_nulls_in_the_same_places_still_pair_by_values() -> None:
     new = pa.table({"apps": [3, None, 5]})
     # Chunked differently on purpose: equality is by value, not by layout.
     new = pa.Table.from_batches(new.to_batches(max_chunksize=1))
-    report = compare(old, new, min_rows=None, max_rows=None)
+    report = detect_drift(old, new, min_rows=None, max_rows=None)
     assert report.renamed == (("caps", "apps"),)
 
 

@@ -17,8 +17,8 @@ import pyarrow.fs as pafs
 import pytest
 
 from harvester.errors import StoreError
+from harvester.store.contract import NULL_SEGMENT
 from harvester.store.layout import (
-    NULL_SEGMENT,
     decode_value,
     encode_value,
     join,

@@ -14,7 +14,7 @@ import polars as pl
 import pyarrow as pa
 
 from harvester import ColumnRule, TableRule, extract_table
-from harvester.provenance import RowSource, with_provenance
+from harvester.run.provenance import RowSource, with_provenance
 from harvester.store.archive import Archive
 from harvester.store.writer import ArchiveWriter
 

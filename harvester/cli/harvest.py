@@ -1,0 +1,71 @@
+"""``harvester harvest``: a recipe's tables fetched politely into the archive."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from harvester.cli.common import (
+    DEFAULT_ARCHIVE,
+    ArchiveOption,
+    ContactOption,
+    SetOption,
+    TextFormat,
+    fail,
+    parse_assignments,
+    usage,
+)
+from harvester.errors import HarvesterError
+
+__all__ = ["harvest_command"]
+
+
+def harvest_command(
+    recipe: Annotated[Path, typer.Argument(metavar="RECIPE", help="A recipe file (TOML).")],
+    archive: ArchiveOption = DEFAULT_ARCHIVE,
+    set_values: SetOption = None,
+    every_value: Annotated[
+        bool, typer.Option("--all", help="Every parameter value, not just the current one.")
+    ] = False,
+    contact: ContactOption = None,
+    offline: Annotated[
+        bool, typer.Option("--offline", help="Use only the cache; fetch nothing.")
+    ] = False,
+    refresh: Annotated[
+        bool, typer.Option("--refresh", help="Revalidate every cached page.")
+    ] = False,
+    output_format: Annotated[
+        TextFormat, typer.Option("--format", "-f", help="text or json (JSON lines).")
+    ] = TextFormat.text,
+) -> None:
+    """Harvest a recipe's tables politely into the archive, one line per table.
+
+    Each table is fetched, read and stored as a new version of its partition, or left as it is
+    when nothing changed. A table that fails is reported and touches nothing. Exit status 1 when
+    any table failed or was refused.
+
+    Example: harvester harvest recipes/league-players.toml --set site=http://127.0.0.1:8650
+    """
+    from harvester.recipe import load_recipe
+    from harvester.run import harvest
+
+    if offline and refresh:
+        usage("--offline and --refresh contradict each other — pick one")
+    overrides = parse_assignments(set_values, "--set", "season=2024")
+    show = output_format is TextFormat.text
+    try:
+        report = harvest(
+            load_recipe(recipe, overrides),
+            archive=archive,
+            contact=contact,
+            mode="offline" if offline else "refresh" if refresh else "normal",
+            every_value=every_value,
+            on_outcome=(lambda outcome: typer.echo(outcome.line())) if show else None,
+        )
+    except HarvesterError as error:
+        fail(error)
+    typer.echo(report.to_json_lines() if not show else report.summary_line(), nl=show)
+    if report.failed:
+        raise typer.Exit(1)

@@ -1,0 +1,114 @@
+"""The ``harvester versions`` and ``harvester diff`` commands (registered on the app by cli.py).
+
+Both read the archive through ``harvester.store.archive.Archive``. ``diff`` matches rows by the
+key columns the harvest recorded in the newer file's ``harvester.provenance`` footer entry, and
+compares whole rows when none were recorded.
+"""
+
+from __future__ import annotations
+
+import json
+from typing import Annotated
+
+import typer
+
+from harvester.cli.common import (
+    DEFAULT_ARCHIVE,
+    ArchiveOption,
+    TextFormat,
+    fail,
+    parse_assignments,
+    usage,
+)
+from harvester.errors import HarvesterError
+from harvester.store.archive import Archive
+from harvester.store.contract import NULL_SEGMENT
+from harvester.store.layout import show_partition
+from harvester.store.partition_diff import diff_partition
+from harvester.timestamps import rfc3339
+
+__all__ = ["diff_command", "versions_command"]
+
+
+def _split_target(target: str, *, table_required: bool) -> tuple[str, str | None]:
+    dataset, slash, table = target.partition("/")
+    if not dataset or (slash and not table) or "/" in table:
+        usage(f"{target!r} is not DATASET or DATASET/TABLE — write e.g. league-players/players")
+    if table_required and not table:
+        usage(f"{target!r} names no table — write DATASET/TABLE, e.g. {dataset}/players")
+    return dataset, table or None
+
+
+def versions_command(
+    target: Annotated[
+        str, typer.Argument(metavar="DATASET[/TABLE]", help="A dataset, or one of its tables.")
+    ],
+    archive: ArchiveOption = DEFAULT_ARCHIVE,
+    output_format: Annotated[
+        TextFormat, typer.Option("--format", "-f", help="text or json.")
+    ] = TextFormat.text,
+) -> None:
+    """List the archived versions of a dataset's tables, one line per version of a partition.
+
+    Text lines hold TABLE, PARTITION (KEY=VALUE/…, or - when the table has none), VERSION,
+    ROWS, COMMITTED_AT and DATA_SHA256, separated by tabs. Versions with the same DATA_SHA256
+    hold the same data.
+
+    Example: harvester versions league-players/players --archive archive
+    """
+    dataset, table = _split_target(target, table_required=False)
+    try:
+        infos = Archive(archive).versions(dataset, table)
+    except HarvesterError as error:
+        fail(error)
+    if output_format is TextFormat.json:
+        typer.echo(json.dumps([info.to_dict() for info in infos], ensure_ascii=False))
+        return
+    for info in infos:
+        fields = (info.table, show_partition(info.partition), str(info.version), str(info.rows))
+        typer.echo("\t".join((*fields, rfc3339(info.committed_at), info.data_sha256)))
+
+
+def diff_command(
+    target: Annotated[str, typer.Argument(metavar="DATASET/TABLE", help="The table to diff.")],
+    partition: Annotated[
+        list[str] | None,
+        typer.Option(
+            "--partition", "-p", metavar="KEY=VALUE", help="Which partition (repeat per key)."
+        ),
+    ] = None,
+    from_version: Annotated[
+        int | None,
+        typer.Option("--from", metavar="N", help="Older version (default: the one before --to)."),
+    ] = None,
+    to_version: Annotated[
+        int | None, typer.Option("--to", metavar="M", help="Newer version (default: the latest).")
+    ] = None,
+    archive: ArchiveOption = DEFAULT_ARCHIVE,
+    output_format: Annotated[
+        TextFormat, typer.Option("--format", "-f", help="text or json.")
+    ] = TextFormat.text,
+) -> None:
+    """Show the rows added, removed and changed between two versions of one partition.
+
+    Rows are matched by the key columns the harvest recorded; with none, whole rows are
+    compared, so an edited row shows as removed and added. Text output: a header line, a
+    summary line, then "+ " added rows, "- " removed rows and "~ " changed rows with each
+    changed column's old → new value (values as JSON). A null partition value is written
+    __HIVE_DEFAULT_PARTITION__.
+
+    Example: harvester diff league-players/players --partition season=2019 --from 1 --to 3
+    """
+    dataset, table = _split_target(target, table_required=True)
+    assert table is not None
+    pairs = parse_assignments(partition, "--partition", "season=2019", metavar="KEY=VALUE")
+    wanted = {key: None if value == NULL_SEGMENT else value for key, value in pairs.items()}
+    try:
+        found = diff_partition(Archive(archive), dataset, table, wanted, from_version, to_version)
+    except HarvesterError as error:
+        fail(error)
+    if output_format is TextFormat.json:
+        typer.echo(json.dumps(found.to_dict(), ensure_ascii=False, allow_nan=False))
+        return
+    for line in found.text_lines():
+        typer.echo(line)

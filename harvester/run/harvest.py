@@ -1,0 +1,210 @@
+"""A harvest: a recipe's plan captured from a page source, its tables extracted and stored.
+
+One table failing (robots.txt, an HTTP error, a selector that matches nothing, a value that
+does not parse, drift the recipe refuses) is reported and never stops the other tables or
+touches the archive: the store writes a version only for a table that was read completely.
+
+Pages come from a ``PageSource`` (``harvester.fetch.source``); by default the polite live
+fetcher, with its HTTP cache inside the archive. The run never asks what kind of source it is.
+"""
+
+from __future__ import annotations
+
+import asyncio
+import uuid
+from collections.abc import Callable
+from contextlib import AsyncExitStack
+from datetime import UTC, datetime
+
+import httpx
+from pyarrow import fs as pafs
+
+from harvester.config import configured_contact
+from harvester.errors import FetchError, HarvesterError
+from harvester.extract.table import extract_table, read_page
+from harvester.fetch.capture import Capture
+from harvester.fetch.client import Fetcher, FetchMode
+from harvester.fetch.identity import Identity
+from harvester.fetch.source import PageRequest, PageSource
+from harvester.recipe.model import PlannedPage, Recipe
+from harvester.recipe.templates import expand_template
+from harvester.run.provenance import RowSource, with_provenance
+from harvester.run.report import Outcome, RunReport, Status, write_report
+from harvester.store.layout import join, open_root
+from harvester.store.writer import ArchiveWriter
+from harvester.timestamps import rfc3339
+
+__all__ = ["harvest", "live_source", "page_request"]
+
+
+def harvest(
+    recipe: Recipe,
+    *,
+    archive: str = "archive",
+    source: PageSource | None = None,
+    contact: str | None = None,
+    mode: FetchMode = "normal",
+    every_value: bool = False,
+    transport: httpx.AsyncBaseTransport | None = None,
+    on_outcome: Callable[[Outcome], None] | None = None,
+) -> RunReport:
+    """Run ``recipe`` for its current parameter values (or every value) into ``archive``.
+
+    Pages come from ``source``; without one, from the polite live fetcher that ``live_source``
+    builds (``contact``, ``mode`` and ``transport`` are its settings). ``on_outcome`` is called
+    with each table's outcome as soon as it is known (a long run shows progress line by line).
+    """
+    with asyncio.Runner() as runner:
+        return runner.run(
+            _harvest(recipe, archive, source, contact, mode, every_value, transport, on_outcome)
+        )
+
+
+async def _harvest(
+    recipe: Recipe,
+    archive: str,
+    source: PageSource | None,
+    contact: str | None,
+    mode: FetchMode,
+    every_value: bool,
+    transport: httpx.AsyncBaseTransport | None,
+    on_outcome: Callable[[Outcome], None] | None,
+) -> RunReport:
+    report = RunReport(uuid.uuid4().hex[:12], recipe.name, archive, datetime.now(UTC))
+    async with AsyncExitStack() as stack:
+        if source is None:
+            fetcher = live_source(recipe, archive, contact=contact, mode=mode, transport=transport)
+            source = await stack.enter_async_context(fetcher)
+        writer = stack.enter_context(ArchiveWriter(archive))
+        for page in recipe.plan(every_value=every_value):
+            for outcome in await _harvest_page(recipe, page, source, writer, report.run_id):
+                report.outcomes.append(outcome)
+                if on_outcome is not None:
+                    on_outcome(outcome)
+    report.finished_at = datetime.now(UTC)
+    write_report(archive, report)
+    return report
+
+
+def live_source(
+    recipe: Recipe,
+    archive: str,
+    *,
+    contact: str | None = None,
+    mode: FetchMode = "normal",
+    transport: httpx.AsyncBaseTransport | None = None,
+) -> Fetcher:
+    """The polite live fetcher for ``recipe``, caching inside a local ``archive``.
+
+    The contact is ``contact``, else the recipe's, else the user's configured one; without any,
+    FetchError (harvester does not fetch from live sites anonymously).
+    """
+    identity = Identity.from_contact(
+        contact or recipe.contact or configured_contact(), where=str(recipe.path)
+    )
+    return Fetcher(
+        identity,
+        cache_dir=_local_cache_dir(archive),
+        mode=mode,
+        min_interval=recipe.fetch.delay,
+        transport=transport,
+    )
+
+
+def page_request(recipe: Recipe, page: PlannedPage) -> PageRequest:
+    """The request a source is asked for one planned page of ``recipe``."""
+    near = None
+    if recipe.fetch.capture_near is not None:
+        near = datetime.fromisoformat(expand_template(recipe.fetch.capture_near, page.parameters))
+        near = near.replace(tzinfo=UTC) if near.utcoffset() is None else near.astimezone(UTC)
+    return PageRequest(
+        page.url, page.parameters, immutable=_immutable(recipe, page), capture_near=near
+    )
+
+
+def _immutable(recipe: Recipe, page: PlannedPage) -> bool:
+    """Whether a page is a past one the recipe says never changes (``immutable_before``)."""
+    limit = recipe.fetch.immutable_before
+    if limit is None:
+        return False
+    numbers = [value for value in page.parameters.values() if isinstance(value, int)]
+    return bool(numbers) and all(value < limit for value in numbers)
+
+
+def _row_source(recipe: Recipe, capture: Capture, selector: str) -> RowSource:
+    return RowSource(
+        source_url=capture.url,
+        final_url=capture.final_url,
+        captured_at=capture.fetched_at,
+        capture_origin=capture.origin,
+        http_status=capture.status,
+        body_sha256=capture.sha256,
+        recipe=recipe.name,
+        recipe_sha256=recipe.sha256,
+        table_selector=selector,
+        memento_datetime=capture.memento_datetime,
+    )
+
+
+async def _harvest_page(
+    recipe: Recipe, page: PlannedPage, source: PageSource, writer: ArchiveWriter, run_id: str
+) -> list[Outcome]:
+    partition = [(name, page.parameters.get(name)) for name in recipe.store.partition_by]
+    where = dict(partition)
+
+    def outcome(
+        table: str, status: Status, message: str, rows: int = 0, version: int = 0
+    ) -> Outcome:
+        return Outcome(recipe.name, table, page.url, where, status, rows, version, message)
+
+    try:
+        capture = await source.capture(page_request(recipe, page))
+    except FetchError as error:
+        return [outcome(table, "failed", str(error)) for table in page.tables]
+    parsed = read_page(capture.body, capture.final_url, capture.charset)
+    outcomes = []
+    for name in page.tables:
+        rule = recipe.table_rule(name)
+        try:
+            extracted = extract_table(parsed, rule, base_url=capture.final_url)
+            rows = list(extracted.source_rows)
+            data = with_provenance(extracted.table, _row_source(recipe, capture, rule.select), rows)
+            result = writer.commit(
+                recipe.name,
+                name,
+                partition,
+                data,
+                provenance=_footer_provenance(recipe, capture, run_id, rule.key),
+                key=rule.key,
+                drift_policy=recipe.store.drift,
+                min_rows=recipe.store.min_rows,
+                max_rows=recipe.store.max_rows,
+            )
+        except HarvesterError as error:
+            outcomes.append(outcome(name, "failed", str(error)))
+            continue
+        outcomes.append(outcome(name, result.status, result.message, result.rows, result.version))
+    return outcomes
+
+
+def _footer_provenance(
+    recipe: Recipe, capture: Capture, run_id: str, key: tuple[str, ...]
+) -> dict[str, object]:
+    """What the run adds to a version's ``harvester.provenance`` footer entry."""
+    return {
+        "run_id": run_id,
+        "recipe": recipe.name,
+        "recipe_sha256": recipe.sha256,
+        "source_urls": [capture.url],
+        "captured_at": rfc3339(capture.fetched_at),
+        "capture_origin": capture.origin,
+        "key": list(key),
+    }
+
+
+def _local_cache_dir(archive: str) -> str | None:
+    """The HTTP cache folder inside a local archive root (diskcache needs a local folder)."""
+    filesystem, root = open_root(archive)
+    if not isinstance(filesystem, pafs.LocalFileSystem):
+        return None  # an object-store archive: no on-disk HTTP cache
+    return join(root, "cache")

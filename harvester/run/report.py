@@ -1,0 +1,98 @@
+"""The run report: what happened to every table of a run, for people and for programs.
+
+People get one line per table (``Outcome.line``) and a count (``summary``); programs get JSON
+lines, kept under ``<archive>/runs/<run-id>.jsonl``.
+"""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Sequence
+from dataclasses import asdict, dataclass, field
+from datetime import datetime
+from typing import Literal
+
+from harvester.store.layout import join, open_root
+from harvester.timestamps import rfc3339
+
+__all__ = ["Outcome", "RunReport", "Status", "summary", "write_report"]
+
+Status = Literal["new", "unchanged", "refused", "failed"]
+RUNS_DIR = "runs"
+
+
+@dataclass(frozen=True)
+class Outcome:
+    """What happened to one table of one page."""
+
+    dataset: str
+    table: str
+    url: str
+    partition: dict[str, str | int | None]
+    status: Status
+    rows: int = 0
+    version: int = 0
+    message: str = ""
+
+    def line(self) -> str:
+        """One human line for the run summary."""
+        where = ",".join(f"{k}={v}" for k, v in self.partition.items()) or "-"
+        detail = f"{self.rows} rows, version {self.version}" if self.status != "failed" else ""
+        # The store's message repeats table and partition; it is worth a column only when it
+        # says why (a failure, a refusal) or warns (drift).
+        worth = self.status in ("failed", "refused") or "drift" in self.message
+        parts = [self.status, f"{self.dataset}/{self.table}", where, detail, self.url]
+        parts.append(self.message if worth else "")
+        return "\t".join(part for part in parts if part)
+
+
+@dataclass
+class RunReport:
+    """A whole run: its id, times and every table's outcome."""
+
+    run_id: str
+    recipe: str
+    archive: str
+    started_at: datetime
+    finished_at: datetime | None = None
+    outcomes: list[Outcome] = field(default_factory=list)
+
+    @property
+    def failed(self) -> bool:
+        """True if any table failed or was refused."""
+        return any(outcome.status in ("failed", "refused") for outcome in self.outcomes)
+
+    def to_json_lines(self) -> str:
+        """The report as JSON lines: a header object, then one object per outcome."""
+        header = {
+            "run_id": self.run_id,
+            "recipe": self.recipe,
+            "archive": self.archive,
+            "started_at": rfc3339(self.started_at),
+            "finished_at": rfc3339(self.finished_at) if self.finished_at else None,
+            "failed": self.failed,
+        }
+        lines = [json.dumps(header)]
+        lines += [json.dumps(asdict(outcome), ensure_ascii=False) for outcome in self.outcomes]
+        return "\n".join(lines) + "\n"
+
+    def summary_line(self) -> str:
+        """``run <id>: 3 new, 1 failed (report in <archive>/runs/)``."""
+        return f"run {self.run_id}: {summary(self.outcomes)} (report in {self.archive}/{RUNS_DIR}/)"
+
+
+def summary(outcomes: Sequence[Outcome]) -> str:
+    """Counts by status, e.g. ``3 new, 1 unchanged, 1 failed``."""
+    counts: dict[str, int] = {}
+    for item in outcomes:
+        counts[item.status] = counts.get(item.status, 0) + 1
+    return ", ".join(f"{count} {status}" for status, count in counts.items()) or "nothing to do"
+
+
+def write_report(archive: str, report: RunReport) -> None:
+    """Keep the report as ``<archive>/runs/<run-id>.jsonl``."""
+    filesystem, root = open_root(archive)
+    folder = join(root, RUNS_DIR)
+    filesystem.create_dir(folder, recursive=True)
+    with filesystem.open_output_stream(join(folder, f"{report.run_id}.jsonl")) as out:
+        out.write(report.to_json_lines().encode("utf-8"))

@@ -1,0 +1,200 @@
+"""The first end-to-end path: recipe → polite fetch → extract → versioned archive (issue 4 §10).
+
+Against the real demo server on 127.0.0.1; expected values come from the league model and the
+server's request log, never from the code under test.
+"""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Callable
+from pathlib import Path
+
+import duckdb
+import pyarrow.parquet as pq
+import pytest
+from typer.testing import CliRunner
+
+from harvester.cli import app
+from harvester.demo.league import build_league
+from harvester.demo.server import DemoServer
+from harvester.recipe import Recipe, load_recipe
+from harvester.run import Outcome, harvest
+
+RECIPES = Path(__file__).resolve().parents[2] / "recipes"
+Factory = Callable[..., DemoServer]
+
+
+def recipe(name: str, site: DemoServer, **overrides: str) -> Recipe:
+    return load_recipe(RECIPES / f"{name}.toml", {"site": site.base_url, **overrides})
+
+
+def parquet_files(root: Path) -> list[Path]:
+    return sorted(root.glob("tables/**/part-0.parquet"))
+
+
+def test_players_land_as_version_1_with_provenance(demo_site: DemoServer, tmp_path: Path) -> None:
+    report = harvest(recipe("league-players", demo_site), archive=str(tmp_path))
+    assert [(o.table, o.status, o.version) for o in report.outcomes] == [
+        ("players", "new", 1),
+        ("advanced", "new", 1),
+    ]
+    season = build_league().season(2026)
+    path = tmp_path / "tables/league-players/players/season=2026/version=1/part-0.parquet"
+    table = pq.read_table(path)
+    assert table.num_rows == len(season.players)
+    page = demo_site.url("/seasons/2026/players.html")
+    assert set(table.column("_source_url").to_pylist()) == {page}
+    assert set(table.column("_capture_origin").to_pylist()) == {"live"}
+    assert set(table.column("_http_status").to_pylist()) == {200}
+    assert set(table.column("_recipe").to_pylist()) == {"league-players"}
+    # The request log shows what was fetched: robots.txt first, the page once, nothing else.
+    assert [record.path for record in demo_site.log] == [
+        "/robots.txt",
+        "/seasons/2026/players.html",
+    ]
+    assert demo_site.violations() == []
+
+
+def test_an_unchanged_rerun_adds_no_version(demo_site: DemoServer, tmp_path: Path) -> None:
+    players = recipe("league-players", demo_site)
+    harvest(players, archive=str(tmp_path))
+    again = harvest(players, archive=str(tmp_path))
+    assert {o.status for o in again.outcomes} == {"unchanged"}
+    assert len(parquet_files(tmp_path)) == 2
+    # The second run came from the fresh cache: the page was asked for once only.
+    assert len(demo_site.requests_for("/seasons/2026/players.html")) == 1
+
+
+def test_a_changed_page_becomes_version_2(demo_site_factory: Factory, tmp_path: Path) -> None:
+    site = demo_site_factory(max_age=0)
+    players = recipe("league-players", site)
+    harvest(players, archive=str(tmp_path))
+    site.advance()  # the demo clock moves: some goals change in the latest season
+    report = harvest(players, archive=str(tmp_path))
+    statuses = {o.table: (o.status, o.version) for o in report.outcomes}
+    assert statuses["players"] == ("new", 2)
+    rows = (
+        duckdb.connect()
+        .sql(
+            f"SELECT version, count(*) FROM read_parquet('{tmp_path}/tables/league-players/players/"
+            "*/*/part-0.parquet', hive_partitioning=true) GROUP BY version ORDER BY version"
+        )
+        .fetchall()
+    )
+    assert [version for version, _ in rows] == [1, 2]
+
+
+def test_a_failing_table_does_not_stop_the_others(demo_site: DemoServer, tmp_path: Path) -> None:
+    # Season 2019 is retired on the live demo site (410), 2026 is served.
+    players = recipe("league-players", demo_site, season="2019")
+    report = harvest(players, archive=str(tmp_path))
+    assert {o.status for o in report.outcomes} == {"failed"}
+    assert all("HTTP 410" in o.message for o in report.outcomes)
+    assert report.failed
+    assert parquet_files(tmp_path) == []
+    standings = recipe("league-standings", demo_site)
+    assert not harvest(standings, archive=str(tmp_path)).failed
+
+
+def test_run_report_is_written_as_json_lines(demo_site: DemoServer, tmp_path: Path) -> None:
+    report = harvest(recipe("league-contracts", demo_site), archive=str(tmp_path))
+    lines = (tmp_path / "runs" / f"{report.run_id}.jsonl").read_text().splitlines()
+    header, *rest = (json.loads(line) for line in lines)
+    assert header["run_id"] == report.run_id and header["failed"] is False
+    assert [item["table"] for item in rest] == ["contracts"]
+    assert rest[0]["status"] == "new"
+
+
+def test_harvest_command_prints_one_line_per_table(demo_site: DemoServer, tmp_path: Path) -> None:
+    result = CliRunner().invoke(
+        app,
+        [
+            "harvest",
+            str(RECIPES / "league-standings.toml"),
+            "--archive",
+            str(tmp_path),
+            "--set",
+            f"site={demo_site.base_url}",
+        ],
+    )
+    assert result.exit_code == 0, result.stderr
+    first = result.stdout.splitlines()[0].split("\t")
+    assert first[:3] == ["new", "league-standings/standings", "season=2026"]
+    assert first[3] == "10 rows, version 1"
+
+
+def test_harvest_command_exits_non_zero_when_a_table_fails(
+    demo_site: DemoServer, tmp_path: Path
+) -> None:
+    result = CliRunner().invoke(
+        app,
+        [
+            "harvest",
+            str(RECIPES / "league-players.toml"),
+            "--archive",
+            str(tmp_path),
+            "--set",
+            f"site={demo_site.base_url}",
+            "--set",
+            "season=2013",
+        ],
+    )
+    assert result.exit_code == 1
+    assert result.stdout.startswith("failed\tleague-players/players")
+
+
+@pytest.mark.parametrize("flag", ["--offline", "--refresh"])
+def test_cache_modes_reach_the_fetcher(demo_site: DemoServer, tmp_path: Path, flag: str) -> None:
+    args = ["harvest", str(RECIPES / "league-contracts.toml"), "--archive", str(tmp_path)]
+    args += ["--set", f"site={demo_site.base_url}"]
+    assert CliRunner().invoke(app, args).exit_code == 0
+    demo_site.clear_log()
+    # No pause: the second run knows from the archive's cache when the first one last asked.
+    result = CliRunner().invoke(app, [*args, flag])
+    assert result.exit_code == 0, result.stderr
+    requests = demo_site.requests_for("/seasons/2026/contracts.html")
+    if flag == "--offline":
+        assert requests == []
+    else:
+        assert [record.status for record in requests] == [304]
+
+
+def test_refused_drift_keeps_the_archive_and_fails_the_run(
+    demo_site: DemoServer, tmp_path: Path
+) -> None:
+    # The standings page has 10 clubs; a recipe that demands at least 50 rows refuses it.
+    text = (RECIPES / "league-standings.toml").read_text(encoding="utf-8")
+    strict = tmp_path / "strict.toml"
+    strict.write_text(text + "\n[store]\nmin_rows = 50\n", encoding="utf-8")
+    loaded = load_recipe(strict, {"site": demo_site.base_url})
+    assert loaded.store.min_rows == 50
+    report = harvest(loaded, archive=str(tmp_path / "archive"))
+    (outcome,) = report.outcomes
+    assert outcome.status == "refused"
+    assert "min_rows" in outcome.message and "refused" in outcome.line()
+    assert report.failed
+    assert parquet_files(tmp_path / "archive") == []
+
+
+def test_each_outcome_is_reported_as_soon_as_it_is_known(
+    demo_site: DemoServer, tmp_path: Path
+) -> None:
+    # Two tables on two pages: the first outcome must arrive before the second page is asked for.
+    text = (RECIPES / "league-standings.toml").read_text(encoding="utf-8")
+    two_pages = tmp_path / "two.toml"
+    two_pages.write_text(
+        text + '\n[tables.contracts]\nurl = "{site}/seasons/{season}/contracts.html"\n'
+        'select = "table#contracts"\n',
+        encoding="utf-8",
+    )
+    seen: list[tuple[str, int]] = []
+
+    def note(outcome: Outcome) -> None:
+        seen.append((outcome.table, len(demo_site.log)))
+
+    loaded = load_recipe(two_pages, {"site": demo_site.base_url})
+    report = harvest(loaded, archive=str(tmp_path / "archive"), on_outcome=note)
+    assert [table for table, _ in seen] == [o.table for o in report.outcomes]
+    # robots.txt + standings when the first is reported; + contracts when the second is.
+    assert seen == [("standings", 2), ("contracts", 3)]
