@@ -34,39 +34,50 @@ class OutputFormat(StrEnum):
     parquet = "parquet"
 
 
+FileArgument = Annotated[
+    str, typer.Argument(metavar="FILE", help="A saved HTML page, or - for standard input.")
+]
+SelectOption = Annotated[
+    str | None, typer.Option("--select", "-s", help="CSS selector naming the table.")
+]
+IndexOption = Annotated[
+    int | None, typer.Option("--index", "-i", help="Which match of the selector (0 = first).")
+]
+GridOption = Annotated[
+    bool, typer.Option("--grid", help="Print the span-expanded grid (no header line).")
+]
+HeaderRowsOption = Annotated[
+    int | None, typer.Option("--header-rows", help="Number of header rows (default: detect).")
+]
+FormatOption = Annotated[
+    OutputFormat | None,
+    typer.Option("--format", "-f", help="table (default on a terminal), csv, json or parquet."),
+]
+OutOption = Annotated[Path | None, typer.Option("--out", "-o", help="File for --format parquet.")]
+RecipeOption = Annotated[
+    Path | None, typer.Option("--recipe", help="Apply a recipe's table rule to the page.")
+]
+TableOption = Annotated[str | None, typer.Option("--table", help="Which table of the recipe.")]
+DropHiddenOption = Annotated[
+    bool, typer.Option("--drop-hidden", help="Leave out cells hidden with display:none.")
+]
+BaseUrlOption = Annotated[
+    str | None, typer.Option("--base-url", help="Resolve relative links against this URL.")
+]
+
+
 def extract_command(
-    file: Annotated[
-        str, typer.Argument(metavar="FILE", help="A saved HTML page, or - for standard input.")
-    ],
-    select: Annotated[
-        str | None, typer.Option("--select", "-s", help="CSS selector naming the table.")
-    ] = None,
-    index: Annotated[
-        int | None, typer.Option("--index", "-i", help="Which match of the selector (0 = first).")
-    ] = None,
-    grid: Annotated[
-        bool, typer.Option("--grid", help="Print the span-expanded grid (no header line).")
-    ] = False,
-    header_rows: Annotated[
-        int | None, typer.Option("--header-rows", help="Number of header rows (default: detect).")
-    ] = None,
-    output_format: Annotated[
-        OutputFormat | None,
-        typer.Option("--format", "-f", help="table (default on a terminal), csv, json or parquet."),
-    ] = None,
-    out: Annotated[
-        Path | None, typer.Option("--out", "-o", help="File for --format parquet.")
-    ] = None,
-    recipe: Annotated[
-        Path | None, typer.Option("--recipe", help="Apply a recipe's table rule to the page.")
-    ] = None,
-    table: Annotated[str | None, typer.Option("--table", help="Which table of the recipe.")] = None,
-    drop_hidden: Annotated[
-        bool, typer.Option("--drop-hidden", help="Leave out cells hidden with display:none.")
-    ] = False,
-    base_url: Annotated[
-        str | None, typer.Option("--base-url", help="Resolve relative links against this URL.")
-    ] = None,
+    file: FileArgument,
+    select: SelectOption = None,
+    index: IndexOption = None,
+    grid: GridOption = False,
+    header_rows: HeaderRowsOption = None,
+    output_format: FormatOption = None,
+    out: OutOption = None,
+    recipe: RecipeOption = None,
+    table: TableOption = None,
+    drop_hidden: DropHiddenOption = False,
+    base_url: BaseUrlOption = None,
 ) -> None:
     """Read one table from a saved HTML page.
 

@@ -15,13 +15,14 @@ import re
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from datetime import datetime
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING
 
 import pyarrow as pa
 import pyarrow.fs as pafs
 import pyarrow.parquet as pq
 
 from harvester.errors import StoreError
+from harvester.store.assemble import VersionRead, combine, key_type, partition_record, unify
 from harvester.store.contract import (
     COMMITTED_AT_KEY,
     DATA_SHA256_KEY,
@@ -34,7 +35,6 @@ from harvester.store.contract import (
     check_dataset_name,
     check_table_name,
     damaged,
-    read_provenance,
 )
 from harvester.store.layout import decode_value, open_root, parse_version
 from harvester.timestamps import parse_rfc3339, rfc3339
@@ -171,7 +171,7 @@ class Archive:
             # Same columns as a normal read, so callers need no special case for "nothing yet".
             return self._empty(f"{dataset}/{table}", _latest(matching) or _latest(found), keys)
         parts = [self._read_file(item) for item in chosen]
-        return _combine(dataset, table, parts, keys)
+        return combine(f"{dataset}/{table}", parts, keys)
 
     def read_pandas(
         self,
@@ -269,24 +269,25 @@ class Archive:
             data_sha256=kv[DATA_SHA256_KEY.encode()].decode(),
         )
 
-    def _read_file(self, item: _Found) -> tuple[_Found, pa.Table, dict[str, Any]]:
+    def _read_file(self, item: _Found) -> VersionRead:
         """The file's table (no partition columns) and the "partition" object of its provenance."""
         try:
             with self._fs.open_input_file(item.fs_path) as handle:
                 data = pq.ParquetFile(handle).read()
         except (OSError, pa.ArrowInvalid) as exc:
             raise damaged(item.shown, f"cannot read: {exc}") from exc
-        return item, data, _provenance_partition(data.schema.metadata, item.shown)
+        record = partition_record(data.schema.metadata, item.shown)
+        return VersionRead(item.partition, item.version, item.shown, data, record)
 
     def _empty(self, name: str, latest: list[_Found], keys: list[str]) -> pa.Table:
         """An empty table with the columns the latest versions would give."""
         schemas = [self._footer(item).schema.to_arrow_schema() for item in latest]
         provenance = [
-            _provenance_partition(schema.metadata, item.shown)
+            partition_record(schema.metadata, item.shown)
             for schema, item in zip(schemas, latest, strict=True)
         ]
-        fields = list(_unify(name, schemas, keys))
-        fields += [pa.field(key, _key_type(key, provenance)) for key in keys]
+        fields = list(unify(name, schemas, keys))
+        fields += [pa.field(key, key_type(key, provenance)) for key in keys]
         fields.append(pa.field("version", pa.int32()))
         return pa.schema(fields).empty_table()
 
@@ -337,73 +338,3 @@ def _keys(found: list[_Found]) -> list[str]:
     for item in found:
         keys += [key for key, _ in item.partition if key not in keys]
     return keys
-
-
-def _provenance_partition(metadata: Mapping[bytes, bytes] | None, shown: str) -> dict[str, Any]:
-    """The ``partition`` object of ``harvester.provenance``, or {} when it has none."""
-    partition = read_provenance(metadata, shown).get("partition")
-    return partition if isinstance(partition, dict) else {}
-
-
-def _key_type(key: str, provenance: list[dict[str, Any]]) -> pa.DataType:
-    """int64 when every file's provenance gives an int for ``key`` (STORE.md), else string."""
-
-    def is_int(value: object) -> bool:
-        return isinstance(value, int) and not isinstance(value, bool)  # JSON true is not a number
-
-    if provenance and all(is_int(one.get(key)) for one in provenance):
-        return pa.int64()
-    return pa.string()
-
-
-def _unify(name: str, schemas: list[pa.Schema], keys: list[str]) -> pa.Schema:
-    """Union of the files' columns by name: data columns first, then ``_`` provenance columns."""
-    try:
-        unified = pa.unify_schemas(
-            [schema.remove_metadata() for schema in schemas], promote_options="permissive"
-        )
-    except (pa.ArrowInvalid, pa.ArrowTypeError) as exc:
-        raise StoreError(
-            f"{name}: the versions read have incompatible column types: {exc}",
-            hint="read the partitions separately (where=...) or pick one version",
-        ) from exc
-    clash = sorted(set(unified.names) & {*keys, "version"})
-    if clash:
-        raise StoreError(
-            f"{name}: data column {clash[0]!r} has the name of a column the reader adds"
-            " (a partition key or version)",
-            hint="rename that column in the recipe and harvest again",
-        )
-    data = [field for field in unified if not field.name.startswith("_")]
-    provenance = [field for field in unified if field.name.startswith("_")]
-    return pa.schema(data + provenance)
-
-
-def _combine(
-    dataset: str, table: str, parts: list[tuple[_Found, pa.Table, dict[str, Any]]], keys: list[str]
-) -> pa.Table:
-    schema = _unify(f"{dataset}/{table}", [data.schema for _, data, _ in parts], keys)
-    types = {key: _key_type(key, [prov for _, _, prov in parts]) for key in keys}
-    pieces = []
-    for item, data, _ in parts:
-        rows = data.num_rows
-        columns = [
-            data.column(field.name).cast(field.type)
-            if field.name in data.column_names
-            else pa.nulls(rows, field.type)
-            for field in schema
-        ]
-        values = dict(item.partition)
-        for key in keys:
-            value = values.get(key)
-            if value is not None and types[key] == pa.int64():
-                if not _INTEGER.fullmatch(value):
-                    problem = f"folder value {key}={value!r} is not the integer its footer gives"
-                    raise damaged(item.shown, problem)
-                columns.append(pa.array([int(value)] * rows, pa.int64()))
-            else:
-                columns.append(pa.array([value] * rows, types[key]))
-        columns.append(pa.array([item.version] * rows, pa.int32()))
-        names = [*schema.names, *keys, "version"]
-        pieces.append(pa.Table.from_arrays(columns, names=names))
-    return pa.concat_tables(pieces)
