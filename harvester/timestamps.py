@@ -28,8 +28,12 @@ def now_rfc3339() -> str:
 
 
 def parse_rfc3339(text: str) -> datetime:
-    """An aware UTC datetime from RFC 3339 text; ValueError when it is not one with an offset."""
-    moment = datetime.fromisoformat(text)
+    """An aware UTC datetime from RFC 3339 text; ValueError when it is not one with an offset.
+
+    Lowercase ``t`` and ``z`` are accepted, as RFC 3339 §5.6 allows (Python 3.11's
+    ``fromisoformat`` alone refuses them).
+    """
+    moment = datetime.fromisoformat(text.upper())
     if moment.utcoffset() is None:
         raise ValueError("it has no UTC offset")
     return moment.astimezone(UTC)

@@ -5,8 +5,6 @@ from __future__ import annotations
 import csv
 import io
 import json
-import subprocess
-import sys
 from pathlib import Path
 
 import duckdb
@@ -160,25 +158,6 @@ def test_parquet_without_out_is_refused(page: Path) -> None:
     code, _, err = invoke("extract", str(page), "-s", "#t", "-f", "parquet")
     assert code == 2
     assert "--out" in err
-
-
-def test_help_states_the_cautions() -> None:
-    code, out, _ = invoke("--help")
-    assert code == 0
-    assert "robots.txt is not permission" in out
-    assert "terms" in out and "local law" in out
-
-
-def test_console_script_runs_as_a_real_process(page: Path) -> None:
-    script = Path(sys.executable).with_name("harvester")
-    done = subprocess.run(
-        [str(script), "extract", str(page), "--select", "#t", "--grid", "--format", "csv"],
-        capture_output=True,
-        text=True,
-        check=False,
-    )
-    assert done.returncode == 0, done.stderr
-    assert done.stdout.splitlines()[0] == "Player,Shooting,Shooting,Salary"
 
 
 def test_parquet_into_a_missing_folder_is_a_one_line_error(page: Path, tmp_path: Path) -> None:

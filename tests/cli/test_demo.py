@@ -1,0 +1,61 @@
+"""``harvester demo``: harvests the invented league and reads it back; writes or serves the site."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from typer.testing import CliRunner
+
+from harvester.cli import app
+
+
+def outcome_lines(stdout: str) -> list[list[str]]:
+    statuses = ("new\t", "unchanged\t", "refused\t", "failed\t")
+    return [line.split("\t")[:2] for line in stdout.splitlines() if line.startswith(statuses)]
+
+
+def test_demo_command_harvests_and_reads_back(tmp_path: Path) -> None:
+    tables = [
+        "league-players/players",
+        "league-players/advanced",
+        "league-contracts/contracts",
+        "league-standings/standings",
+    ]
+    result = CliRunner().invoke(app, ["demo", "--archive", str(tmp_path), "--rows", "2"])
+    assert result.exit_code == 0, result.stderr
+    assert outcome_lines(result.stdout) == [["new", table] for table in tables]
+    assert "read_parquet(" in result.stdout  # shows how to read it without harvester
+    again = CliRunner().invoke(app, ["demo", "--archive", str(tmp_path), "--rows", "2"])
+    assert again.exit_code == 0, again.stderr
+    assert outcome_lines(again.stdout) == [["unchanged", table] for table in tables]
+
+
+def test_demo_writes_the_site(tmp_path: Path) -> None:
+    result = CliRunner().invoke(app, ["demo", "--write-site", str(tmp_path)])
+    assert result.exit_code == 0
+    assert (tmp_path / "seasons" / "2026" / "players.html").is_file()
+
+
+def test_demo_serve_runs_a_loopback_site_until_stopped() -> None:
+    import signal
+    import subprocess
+    import sys
+
+    import httpx
+
+    script = Path(sys.executable).with_name("harvester")
+    with subprocess.Popen(
+        [str(script), "demo", "--serve", "--port", "0", "--crawl-delay", "0.1"],
+        stdout=subprocess.PIPE,
+        text=True,
+    ) as process:
+        try:
+            assert process.stdout is not None
+            base = process.stdout.readline().split()[3]
+            assert base.startswith("http://127.0.0.1:")
+            robots = httpx.get(f"{base}/robots.txt", timeout=5)
+            assert "Crawl-delay: 0.1" in robots.text
+        finally:
+            process.send_signal(signal.SIGINT)
+            process.wait(timeout=10)
+    assert process.returncode == 0
