@@ -13,7 +13,6 @@ cannot extend beyond the last row box of its row group), and it stops one attrib
 
 from __future__ import annotations
 
-import gc
 from dataclasses import dataclass, field
 
 from selectolax.lexbor import LexborNode
@@ -187,15 +186,7 @@ def build_grid(table: LexborNode, *, drop_hidden: bool = False) -> Grid:
     With ``drop_hidden``, rows and cells hidden by inline ``display: none`` (or ``hidden``)
     are left out before the grid is formed, as a browser leaves them out of its layout.
     """
-    # Pausing the cyclic garbage collector while a large grid fills up roughly halves the
-    # time: the collector would otherwise walk every new list again and again.
-    collecting = gc.isenabled()
-    gc.disable()
-    try:
-        return _GridBuilder(table, drop_hidden).build()
-    finally:
-        if collecting:
-            gc.enable()
+    return _GridBuilder(table, drop_hidden).build()
 
 
 def _parents(nodes: list[LexborNode]) -> set[int]:
