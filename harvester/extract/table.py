@@ -3,6 +3,12 @@
 The steps, each in its own module: locate (selector, comments) → grid (WHATWG table model) →
 headers (detect, collapse, rename) → row drops (repeated headers, group labels, empty rows, the
 rule's patterns) → values (typed columns, markers, links).
+
+:func:`extract_table` and :func:`extract_grid` each pause the cyclic garbage collector for the
+whole extraction, once, through the thread-aware guard in ``collector.py`` (nested and
+concurrent extractions share it, and the collector comes back on after the last one, raising
+or not): collection passes over the extraction's own live objects cost a fifth of its time on
+the benchmark page (BENCHMARKS.md).
 """
 
 from __future__ import annotations
@@ -16,6 +22,7 @@ from urllib.parse import urljoin
 import pyarrow as pa
 
 from harvester.errors import ExtractError
+from harvester.extract.collector import EXTRACTION_PAUSE
 from harvester.extract.decode import decode_html, sniff_encoding
 from harvester.extract.grid import Grid, build_grid
 from harvester.extract.headers import (
@@ -80,8 +87,9 @@ def extract_grid(
     source: str = "<page>",
 ) -> list[list[str]]:
     """The span-expanded grid of the table ``select`` names: every slot's text, row by row."""
-    located = locate_table(_as_page(page, source), select, index)
-    return build_grid(located.node, drop_hidden=drop_hidden).texts()
+    with EXTRACTION_PAUSE:
+        located = locate_table(_as_page(page, source), select, index)
+        return build_grid(located.node, drop_hidden=drop_hidden).texts()
 
 
 def extract_table(
@@ -95,8 +103,12 @@ def extract_table(
 
     ``base_url`` resolves relative link targets kept by ``link_of`` columns.
     """
-    rule = rule or TableRule()
-    page = _as_page(page, source)
+    with EXTRACTION_PAUSE:
+        return _extract_table(_as_page(page, source), rule or TableRule(), base_url)
+
+
+def _extract_table(page: Page, rule: TableRule, base_url: str | None) -> ExtractedTable:
+    """:func:`extract_table` without the collector pause (the benchmark times both)."""
     located = locate_table(page, rule.select, rule.index)
     where = f"{page.source}: table {rule.name!r} ({rule.select})"
     grid = build_grid(located.node, drop_hidden=rule.hidden == "drop")
