@@ -8,12 +8,18 @@ rows, about 2 MB) and times, as the median of several repeats in this one run:
 It prints c/b (aim >= 8) and b/a (aim <= 2.5), and the peak resident memory of (b) measured in
 a fresh child process, as a multiple of the page size.
 
+It also asks whether pausing the cyclic garbage collector is worth it: the same extraction
+without the pause extract_table takes (harvester.extract.collector), once with the collector
+running as it normally does and once with it switched off, timed turn about; it prints their
+ratio and the collections one unpaused run triggers.
+
 Usage: .venv/bin/python bench/extract_bench.py [--rows 5000] [--repeats 5]
 """
 
 from __future__ import annotations
 
 import argparse
+import gc
 import io
 import random
 import statistics
@@ -21,7 +27,7 @@ import subprocess
 import sys
 import tempfile
 import time
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 
 GROUPS = (
     ("Shooting", ("Goals", "Shots", "Pct")),
@@ -94,6 +100,54 @@ def median_seconds(action: Callable[[], object], repeats: int) -> float:
     return statistics.median(times)
 
 
+def alternating_medians(actions: Sequence[Callable[[], object]], repeats: int) -> list[float]:
+    """Median wall time of each action, the actions run turn about so drift hits all alike."""
+    for action in actions:
+        action()
+    times: list[list[float]] = [[] for _ in actions]
+    for _ in range(repeats):
+        for action, spent in zip(actions, times, strict=True):
+            start = time.perf_counter()
+            action()
+            spent.append(time.perf_counter() - start)
+    return [statistics.median(spent) for spent in times]
+
+
+def with_collector_off(action: Callable[[], object]) -> Callable[[], object]:
+    """``action`` run with the cyclic collector switched off, and its state restored after."""
+
+    def run() -> object:
+        was_enabled = gc.isenabled()
+        gc.disable()
+        try:
+            return action()
+        finally:
+            if was_enabled:
+                gc.enable()
+
+    return run
+
+
+def collections_during(action: Callable[[], object]) -> tuple[dict[int, int], float]:
+    """How many collections of each generation one run of ``action`` triggers, and their time."""
+    counts: dict[int, int] = {}
+    spent = [0.0, 0.0]  # start of the current collection, total so far
+
+    def note(phase: str, info: dict[str, int]) -> None:
+        if phase == "start":
+            spent[0] = time.perf_counter()
+        else:
+            spent[1] += time.perf_counter() - spent[0]
+            counts[info["generation"]] = counts.get(info["generation"], 0) + 1
+
+    gc.callbacks.append(note)
+    try:
+        action()
+    finally:
+        gc.callbacks.remove(note)
+    return dict(sorted(counts.items())), spent[1]
+
+
 _PEAK_SCRIPT = """
 import sys
 from harvester import TableRule, extract_table
@@ -143,7 +197,8 @@ def main() -> None:
 
     from selectolax.lexbor import LexborHTMLParser
 
-    from harvester import TableRule, extract_table
+    from harvester import TableRule, extract_table, read_page
+    from harvester.extract.table import _extract_table  # the pipeline without the pause
 
     html = build_page(args.rows)
     data = html.encode()
@@ -163,6 +218,18 @@ def main() -> None:
     print(f"(c) pandas.read_html(lxml) {reference * 1000:9.1f} ms")
     print(f"c/b = {reference / ours:.1f}   (aim >= 8)")
     print(f"b/a = {ours / parse:.2f}   (aim <= 2.5)")
+
+    def unpaused() -> object:
+        return _extract_table(read_page(data), rule, None)
+
+    running, off = alternating_medians([unpaused, with_collector_off(unpaused)], args.repeats)
+    counts, collecting = collections_during(unpaused)
+    print(f"collector, without extract_table's pause ({len(gc.get_objects()):,} objects tracked):")
+    print(f"  (d) collector running      {running * 1000:9.1f} ms")
+    print(f"  (e) collector switched off {off * 1000:9.1f} ms")
+    print(f"  d/e = {running / off:.2f}")
+    shown = ", ".join(f"generation {generation}: {n}" for generation, n in counts.items())
+    print(f"  one run of (d): {shown or 'no collections'}; {collecting * 1000:.1f} ms collecting")
     for rows in (args.rows, args.memory_rows):
         page = data if rows == args.rows else build_page(rows).encode()
         before, peak = peak_memory_kib(page)
