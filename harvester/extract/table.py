@@ -24,7 +24,8 @@ import pyarrow as pa
 from harvester.errors import ExtractError
 from harvester.extract.collector import EXTRACTION_PAUSE
 from harvester.extract.decode import decode_html, sniff_encoding
-from harvester.extract.grid import Grid, build_grid
+from harvester.extract.grid import build_grid
+from harvester.extract.grid_model import Grid
 from harvester.extract.headers import (
     collapse_headers,
     deduplicate,
