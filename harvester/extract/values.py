@@ -79,7 +79,11 @@ class TypedColumn:
 
 
 def _prepare(texts: Sequence[str], markers: str) -> tuple[list[str], list[str | None] | None]:
-    """Stripped cell texts with trailing markers removed, and the markers per cell if any."""
+    """Stripped cell texts with trailing markers removed, and the markers split off each cell.
+
+    ``markers`` holds the marker characters (``TableRule.markers``). The second result is None
+    when no cell ends in one.
+    """
     cores = list(map(str.strip, texts))
     joined = "\0".join(cores) + "\0"
     # Parsers join a column with NUL, so a NUL inside a cell becomes U+FFFD REPLACEMENT CHARACTER.
@@ -87,18 +91,18 @@ def _prepare(texts: Sequence[str], markers: str) -> tuple[list[str], list[str | 
         cores = [c.replace("\0", "\ufffd") for c in cores]
         joined = "\0".join(cores) + "\0"
     # Whole-column checks in C first: most columns have no cell ending in a marker at all.
-    if not any(m + "\0" in joined for m in markers):
+    if not any(marker + "\0" in joined for marker in markers):
         return cores, None
     hits = list(compress(range(len(cores)), map(str.endswith, cores, repeat(tuple(markers)))))
-    marks: list[str | None] = [None] * len(cores)
+    markers_split_off: list[str | None] = [None] * len(cores)
     for i in hits:
-        cores[i], marks[i] = split_markers(cores[i], markers)
-    return cores, marks
+        cores[i], markers_split_off[i] = split_markers(cores[i], markers)
+    return cores, markers_split_off
 
 
-def _infer(cells: list[str], mark: str) -> tuple[ColumnType, list[Any]]:
+def _infer(cells: list[str], decimal_mark: str) -> tuple[ColumnType, list[Any]]:
     if cells:
-        ctx = ParseContext(mark, infer=True)
+        ctx = ParseContext(decimal_mark, infer=True)
         for kind in INFER_ORDER:
             values, _ = PARSERS[kind](cells, ctx)
             if values is not None:
@@ -135,22 +139,22 @@ def _booleans(
     true_values = frozenset(rule.true_values or DEFAULT_TRUE_VALUES)
     nulls = frozenset(table.nulls)
     values: list[bool | None] = []
-    marks: list[str | None] = []
+    markers_split_off: list[str | None] = []
     for i, raw in enumerate(texts):
         text = raw.strip()
         # Checked before marker stripping: "*" is both a default marker and a default true.
         if text in true_values or not text:
             values.append(bool(text))
-            marks.append(None)
+            markers_split_off.append(None)
             continue
-        core, mark = split_markers(text, table.markers)
+        core, split_off = split_markers(text, table.markers)
         if core in true_values or core in nulls:
             values.append(True if core in true_values else None)
-            marks.append(mark or None)
+            markers_split_off.append(split_off or None)
             continue
         hint = 'add it to true_values, declare type = "text" or add the text to nulls'
         raise _fail(name, raw, "boolean", rows[i], hint)
-    return values, marks
+    return values, markers_split_off
 
 
 def convert_column(
@@ -169,19 +173,19 @@ def convert_column(
     if len(rows) != len(texts):
         raise ValueError(f"column {name!r}: {len(texts)} cells but {len(rows)} row numbers")
     declared = rule.type if rule is not None else None
-    want_marks = rule is not None and rule.markers_to is not None
-    mark = table.decimal_mark
+    keep_markers = rule is not None and rule.markers_to is not None
+    decimal_mark = table.decimal_mark
 
     if declared == "boolean":
         assert rule is not None
-        flags, bool_marks = _booleans(name, texts, rule, table, rows)
-        marks_array = _strings(bool_marks) if want_marks else None
-        return TypedColumn(name, pa.array(flags, type=pa.bool_()), "boolean", marks_array)
+        flags, flag_markers = _booleans(name, texts, rule, table, rows)
+        markers_column = _strings(flag_markers) if keep_markers else None
+        return TypedColumn(name, pa.array(flags, type=pa.bool_()), "boolean", markers_column)
 
-    cores, marks = _prepare(texts, table.markers)
-    marks_array = None
-    if want_marks:
-        marks_array = _strings(marks or [None] * len(cores))
+    cores, markers_split_off = _prepare(texts, table.markers)
+    markers_column = None
+    if keep_markers:
+        markers_column = _strings(markers_split_off or [None] * len(cores))
     nulls = frozenset(table.nulls)
     positions: list[int] | None = None
     cells = cores
@@ -191,13 +195,13 @@ def convert_column(
 
     kind: ColumnType
     if declared is None and table.infer_types:
-        kind, values = _infer(cells, mark)
+        kind, values = _infer(cells, decimal_mark)
     elif declared is None or declared == "text":
         kind, values = "text", cells
     else:
         kind = declared
         formats = rule.formats if rule is not None else ()
-        parsed, bad = PARSERS[kind](cells, ParseContext(mark, infer=False, formats=formats))
+        parsed, bad = PARSERS[kind](cells, ParseContext(decimal_mark, infer=False, formats=formats))
         hint = ""
         if parsed is not None and kind == "integer" and not fits_int64(parsed):
             bad = next(i for i, v in enumerate(parsed) if not fits_int64([v]))
@@ -219,4 +223,4 @@ def convert_column(
             full[at] = value
         values = full
     array = _strings(values) if kind == "text" else pa.array(values, type=arrow_type)
-    return TypedColumn(name, array, kind, marks_array)
+    return TypedColumn(name, array, kind, markers_column)
