@@ -120,22 +120,59 @@ def infer_type(texts: Sequence[str], table: TableRule) -> ColumnType:
     return _infer([c for c in cores if c not in nulls], table.decimal_mark)[0]
 
 
-def _strings(values: list[Any]) -> pa.Array:
-    # from_pandas=True takes pyarrow's faster conversion path for str lists (~8x here);
-    # it only changes how float NaN is read, and these lists hold str and None only.
-    return pa.array(values, type=pa.string(), from_pandas=True)
+def convert_column(
+    name: str,
+    texts: Sequence[str],
+    rule: ColumnRule | None,
+    table: TableRule,
+    row_numbers: Sequence[int] | None = None,
+) -> TypedColumn:
+    """Convert one column's cell texts to a typed array, by its rule or by inference.
+
+    ``row_numbers`` gives the 1-based body row of each cell for error messages (default
+    1, 2, 3, ...). Raises ValueParseError when a cell does not parse as a declared type.
+    """
+    rows = row_numbers if row_numbers is not None else range(1, len(texts) + 1)
+    if len(rows) != len(texts):
+        raise ValueError(f"column {name!r}: {len(texts)} cells but {len(rows)} row numbers")
+    keep_markers = rule is not None and rule.markers_to is not None
+    if rule is not None and rule.type == "boolean":
+        return _boolean_column(name, texts, rule, table, rows)
+
+    cores, markers_split_off = _prepare(texts, table.markers)
+    markers_column = None
+    if keep_markers:
+        markers_column = _strings(markers_split_off or [None] * len(cores))
+    positions = _non_null_positions(cores, table.nulls)
+    cells = cores if positions is None else [cores[i] for i in positions]
+
+    declared = rule.type if rule is not None else None
+    kind: ColumnType
+    if declared is None and table.infer_types:
+        kind, values = _infer(cells, table.decimal_mark)
+    elif declared is None or declared == "text":
+        kind, values = "text", cells
+    else:
+        kind = declared
+        formats = rule.formats if rule is not None else ()
+        parsed, bad, hint = _parse_declared(kind, cells, table.decimal_mark, formats)
+        if parsed is None:
+            at = positions[bad] if positions is not None else bad
+            raise _fail(name, texts[at], kind, rows[at], hint)
+        values = parsed
+    return TypedColumn(name, _array(kind, values, positions, len(cores)), kind, markers_column)
 
 
-def _fail(name: str, text: str, kind: str, row: int, hint: str = "") -> ValueParseError:
-    return ValueParseError(
-        f"column {name!r}, body row {row}: cannot read {text!r} as declared type {kind!r}",
-        hint=hint or 'declare type = "text" or add the text to nulls',
-    )
+_HINT = 'declare type = "text" or add the text to nulls'
+_BOOLEAN_HINT = "add it to true_values, " + _HINT
+_DATE_HINT = "add its format to formats, " + _HINT
+_PAST_64_BITS_HINT = 'it is past 64 bits; declare type = "decimal" or "text"'
 
 
-def _booleans(
+def _boolean_column(
     name: str, texts: Sequence[str], rule: ColumnRule, table: TableRule, rows: Sequence[int]
-) -> tuple[list[bool | None], list[str | None]]:
+) -> TypedColumn:
+    """A declared boolean column: true values, empty cells (false) and nulls, markers kept."""
     true_values = frozenset(rule.true_values or DEFAULT_TRUE_VALUES)
     nulls = frozenset(table.nulls)
     values: list[bool | None] = []
@@ -152,75 +189,57 @@ def _booleans(
             values.append(True if core in true_values else None)
             markers_split_off.append(split_off or None)
             continue
-        hint = 'add it to true_values, declare type = "text" or add the text to nulls'
-        raise _fail(name, raw, "boolean", rows[i], hint)
-    return values, markers_split_off
+        raise _fail(name, raw, "boolean", rows[i], _BOOLEAN_HINT)
+    markers_column = _strings(markers_split_off) if rule.markers_to is not None else None
+    return TypedColumn(name, pa.array(values, type=pa.bool_()), "boolean", markers_column)
 
 
-def convert_column(
-    name: str,
-    texts: Sequence[str],
-    rule: ColumnRule | None,
-    table: TableRule,
-    row_numbers: Sequence[int] | None = None,
-) -> TypedColumn:
-    """Convert one column's cell texts to a typed array, by its rule or by inference.
+def _non_null_positions(cores: list[str], nulls: Sequence[str]) -> list[int] | None:
+    """Where the cells that are not null texts sit, or None if no cell is a null text."""
+    null_texts = frozenset(nulls)
+    if null_texts.isdisjoint(cores):
+        return None  # the usual column: no list of positions to build or to map back through
+    return [i for i, core in enumerate(cores) if core not in null_texts]
 
-    ``row_numbers`` gives the 1-based body row of each cell for error messages (default
-    1, 2, 3, ...). Raises ValueParseError when a cell does not parse as a declared type.
-    """
-    rows = row_numbers if row_numbers is not None else range(1, len(texts) + 1)
-    if len(rows) != len(texts):
-        raise ValueError(f"column {name!r}: {len(texts)} cells but {len(rows)} row numbers")
-    declared = rule.type if rule is not None else None
-    keep_markers = rule is not None and rule.markers_to is not None
-    decimal_mark = table.decimal_mark
 
-    if declared == "boolean":
-        assert rule is not None
-        flags, flag_markers = _booleans(name, texts, rule, table, rows)
-        markers_column = _strings(flag_markers) if keep_markers else None
-        return TypedColumn(name, pa.array(flags, type=pa.bool_()), "boolean", markers_column)
+def _parse_declared(
+    kind: ColumnType, cells: list[str], decimal_mark: str, formats: tuple[str, ...]
+) -> tuple[list[Any] | None, int, str]:
+    """The cells parsed as the declared ``kind``; or None, the first bad cell and a hint."""
+    parsed, bad = PARSERS[kind](cells, ParseContext(decimal_mark, infer=False, formats=formats))
+    if parsed is not None and kind == "integer" and not fits_int64(parsed):
+        bad = next(i for i, value in enumerate(parsed) if not fits_int64([value]))
+        return None, bad, _PAST_64_BITS_HINT
+    if parsed is None:
+        return None, bad, _DATE_HINT if kind == "date" else _HINT
+    return parsed, bad, ""
 
-    cores, markers_split_off = _prepare(texts, table.markers)
-    markers_column = None
-    if keep_markers:
-        markers_column = _strings(markers_split_off or [None] * len(cores))
-    nulls = frozenset(table.nulls)
-    positions: list[int] | None = None
-    cells = cores
-    if not nulls.isdisjoint(cores):
-        positions = [i for i, c in enumerate(cores) if c not in nulls]
-        cells = [cores[i] for i in positions]
 
-    kind: ColumnType
-    if declared is None and table.infer_types:
-        kind, values = _infer(cells, decimal_mark)
-    elif declared is None or declared == "text":
-        kind, values = "text", cells
-    else:
-        kind = declared
-        formats = rule.formats if rule is not None else ()
-        parsed, bad = PARSERS[kind](cells, ParseContext(decimal_mark, infer=False, formats=formats))
-        hint = ""
-        if parsed is not None and kind == "integer" and not fits_int64(parsed):
-            bad = next(i for i, v in enumerate(parsed) if not fits_int64([v]))
-            parsed, hint = None, 'it is past 64 bits; declare type = "decimal" or "text"'
-        if parsed is None:
-            at = positions[bad] if positions is not None else bad
-            if kind == "date":
-                hint = 'add its format to formats, declare type = "text" or add the text to nulls'
-            raise _fail(name, texts[at], kind, rows[at], hint)
-        values = parsed
-
+def _array(
+    kind: ColumnType, values: list[Any], positions: list[int] | None, length: int
+) -> pa.Array:
+    """The column's Arrow array: ``values`` put back at ``positions``, null everywhere else."""
     arrow_type = ARROW_TYPES[kind]
-    if kind == "duration" and any(type(v) is float for v in values):
+    if kind == "duration" and any(type(value) is float for value in values):
+        # One cell with fractional seconds makes the whole column float seconds.
         arrow_type = pa.float64()
-        values = [float(v) for v in values]
+        values = [float(value) for value in values]
     if positions is not None:
-        full: list[Any] = [None] * len(cores)
+        full: list[Any] = [None] * length
         for at, value in zip(positions, values, strict=True):
             full[at] = value
         values = full
-    array = _strings(values) if kind == "text" else pa.array(values, type=arrow_type)
-    return TypedColumn(name, array, kind, markers_column)
+    return _strings(values) if kind == "text" else pa.array(values, type=arrow_type)
+
+
+def _strings(values: list[Any]) -> pa.Array:
+    # from_pandas=True takes pyarrow's faster conversion path for str lists (~8x here);
+    # it only changes how float NaN is read, and these lists hold str and None only.
+    return pa.array(values, type=pa.string(), from_pandas=True)
+
+
+def _fail(name: str, text: str, kind: str, row: int, hint: str) -> ValueParseError:
+    return ValueParseError(
+        f"column {name!r}, body row {row}: cannot read {text!r} as declared type {kind!r}",
+        hint=hint,
+    )
