@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import codecs
 import re
+from bisect import bisect_right
 from collections.abc import Sequence
 from dataclasses import dataclass
 from urllib.parse import urljoin
@@ -125,13 +126,13 @@ def _extract_table(page: Page, rule: TableRule, base_url: str | None) -> Extract
     if rule.group_rows == "column" and any(group is not None for group in body.groups):
         columns.append(pa.array(body.groups, type=pa.string()))
         column_names.append(rule.group_column)
-    row_numbers = [y + 1 for y in body.rows]
+    body_rows, grid_rows = _row_numbers(body.rows, header_rows)
     for x, name in enumerate(names):
         texts = [row[x] for row in body.texts]
-        typed = convert_column(name, texts, rule.column(name), rule, row_numbers)
+        own = rule.column(name)
+        typed = convert_column(name, texts, own, rule, body_rows=body_rows, grid_rows=grid_rows)
         columns.append(typed.values)
         column_names.append(name)
-        own = rule.column(name)
         if typed.markers is not None and own is not None and own.markers_to:
             columns.append(typed.markers)
             column_names.append(own.markers_to)
@@ -205,6 +206,17 @@ def _body_rows(grid: Grid, header_rows: Sequence[int], rule: TableRule) -> _Body
         body.texts.append(texts)
         body.groups.append(group)
     return body
+
+
+def _row_numbers(rows: Sequence[int], header_rows: Sequence[int]) -> tuple[list[int], list[int]]:
+    """Each of the grid ``rows`` numbered from 1 in the table body, and in the whole grid.
+
+    The body count runs over every grid row that is not a header row, rows dropped later
+    included, so the first row under the header is row 1 of the body whatever is dropped.
+    Grid rows follow the table model's order, which puts every ``tfoot`` last.
+    """
+    headers = sorted(header_rows)
+    return [y + 1 - bisect_right(headers, y) for y in rows], [y + 1 for y in rows]
 
 
 def _apply_row_drops(body: _Body, names: Sequence[str], rule: TableRule, where: str) -> _Body:

@@ -125,16 +125,20 @@ def convert_column(
     texts: Sequence[str],
     rule: ColumnRule | None,
     table: TableRule,
-    row_numbers: Sequence[int] | None = None,
+    *,
+    body_rows: Sequence[int] | None = None,
+    grid_rows: Sequence[int] | None = None,
 ) -> TypedColumn:
     """Convert one column's cell texts to a typed array, by its rule or by inference.
 
-    ``row_numbers`` gives the 1-based body row of each cell for error messages (default
-    1, 2, 3, ...). Raises ValueParseError when a cell does not parse as a declared type.
+    Raises ValueParseError when a cell does not parse as a declared type, naming the cell's row.
+    ``body_rows`` numbers each cell's row of the table body from 1, counting every grid row that
+    is not a header row, dropped ones too (repeated headers, group labels, empty rows): the
+    first row under the header is row 1, as a reader counts on the page. The default 1, 2, 3, …
+    fits cells that are the whole body. ``grid_rows``, when given, numbers each cell's row of
+    the whole grid from 1, header rows included, and the message names that row too.
     """
-    rows = row_numbers if row_numbers is not None else range(1, len(texts) + 1)
-    if len(rows) != len(texts):
-        raise ValueError(f"column {name!r}: {len(texts)} cells but {len(rows)} row numbers")
+    rows = _CellRows.checked(name, len(texts), body_rows, grid_rows)
     keep_markers = rule is not None and rule.markers_to is not None
     if rule is not None and rule.type == "boolean":
         return _boolean_column(name, texts, rule, table, rows)
@@ -158,9 +162,32 @@ def convert_column(
         parsed, bad, hint = _parse_declared(kind, cells, table.decimal_mark, formats)
         if parsed is None:
             at = positions[bad] if positions is not None else bad
-            raise _fail(name, texts[at], kind, rows[at], hint)
+            raise _fail(name, texts[at], kind, rows.describe(at), hint)
         values = parsed
     return TypedColumn(name, _array(kind, values, positions, len(cores)), kind, markers_column)
+
+
+@dataclass(frozen=True)
+class _CellRows:
+    """Where a column's cells sit, for error messages: rows of the body and, if known, the grid."""
+
+    body: Sequence[int]
+    grid: Sequence[int] | None
+
+    @classmethod
+    def checked(
+        cls, name: str, cells: int, body: Sequence[int] | None, grid: Sequence[int] | None
+    ) -> _CellRows:
+        """The row numbers for ``cells`` cells, the body rows 1, 2, 3, … unless given."""
+        for numbers, what in ((body, "body row numbers"), (grid, "grid row numbers")):
+            if numbers is not None and len(numbers) != cells:
+                raise ValueError(f"column {name!r}: {cells} cells but {len(numbers)} {what}")
+        return cls(body if body is not None else range(1, cells + 1), grid)
+
+    def describe(self, i: int) -> str:
+        """Where cell ``i`` sits, e.g. ``row 3 of the table body (grid row 5)``."""
+        where = f"row {self.body[i]} of the table body"
+        return where if self.grid is None else f"{where} (grid row {self.grid[i]})"
 
 
 _HINT = 'declare type = "text" or add the text to nulls'
@@ -170,7 +197,7 @@ _PAST_64_BITS_HINT = 'it is past 64 bits; declare type = "decimal" or "text"'
 
 
 def _boolean_column(
-    name: str, texts: Sequence[str], rule: ColumnRule, table: TableRule, rows: Sequence[int]
+    name: str, texts: Sequence[str], rule: ColumnRule, table: TableRule, rows: _CellRows
 ) -> TypedColumn:
     """A declared boolean column: true values, empty cells (false) and nulls, markers kept."""
     true_values = frozenset(rule.true_values or DEFAULT_TRUE_VALUES)
@@ -189,7 +216,7 @@ def _boolean_column(
             values.append(True if core in true_values else None)
             markers_split_off.append(split_off or None)
             continue
-        raise _fail(name, raw, "boolean", rows[i], _BOOLEAN_HINT)
+        raise _fail(name, raw, "boolean", rows.describe(i), _BOOLEAN_HINT)
     markers_column = _strings(markers_split_off) if rule.markers_to is not None else None
     return TypedColumn(name, pa.array(values, type=pa.bool_()), "boolean", markers_column)
 
@@ -238,8 +265,7 @@ def _strings(values: list[Any]) -> pa.Array:
     return pa.array(values, type=pa.string(), from_pandas=True)
 
 
-def _fail(name: str, text: str, kind: str, row: int, hint: str) -> ValueParseError:
+def _fail(name: str, text: str, kind: str, where: str, hint: str) -> ValueParseError:
     return ValueParseError(
-        f"column {name!r}, body row {row}: cannot read {text!r} as declared type {kind!r}",
-        hint=hint,
+        f"column {name!r}, {where}: cannot read {text!r} as declared type {kind!r}", hint=hint
     )
