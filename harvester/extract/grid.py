@@ -16,7 +16,7 @@ from __future__ import annotations
 from selectolax.lexbor import LexborNode
 
 from harvester.extract.cells import (
-    MAX_COL_SPAN_ATTR,
+    MAX_COLGROUP_SPAN,
     MAX_COLSPAN,
     MAX_ROWSPAN,
     cell_text,
@@ -44,7 +44,9 @@ __all__ = [
 
 _ROW_GROUPS = frozenset({"thead", "tbody", "tfoot"})
 _CELL_TAGS = frozenset({"td", "th"})
-_COMPLEX_TAGS = frozenset({"br", "table", "script", "style", "template"})
+# Inside a cell, these make its text need cell_text: br reads as a space, and nested tables,
+# scripts, styles and templates are left out.
+_CAREFUL_TEXT_TAGS = frozenset({"br", "table", "script", "style", "template"})
 # th cells and stray children of tr (script, form) are both "tr > :not(td)".
 _CAREFUL_SELECTOR = "td[colspan], td[rowspan], br, table, script, style, template, tr > :not(td)"
 
@@ -73,7 +75,7 @@ class _GridBuilder:
         # One selector pass over the whole table finds everything that needs care, so that a
         # plain row (td cells only, no spans, plain text) is read with one comprehension.
         spanning: list[LexborNode] = []
-        complex_parts: list[LexborNode] = []
+        careful_text_parts: list[LexborNode] = []
         careful_rows: set[int] = set()
         for node in table.css(_CAREFUL_SELECTOR):
             tag = node.tag
@@ -83,20 +85,21 @@ class _GridBuilder:
                     spanning.append(node)
                 if tag == "th" and (parent := node.parent) is not None:
                     careful_rows.add(parent.mem_id)
-            elif tag in _COMPLEX_TAGS:
-                complex_parts.append(node)
+            elif tag in _CAREFUL_TEXT_TAGS:
+                careful_text_parts.append(node)
             elif (parent := node.parent) is not None and parent.tag == "tr":
                 careful_rows.add(parent.mem_id)  # a script or form among the cells
-        self.spanning = {node.mem_id for node in spanning}
-        complex_cells = self._cells_containing(complex_parts)
-        self.hidden: set[int] = set()
+        # Element handles are new Python objects on every access; their mem_id names the element.
+        self.spanning_ids = {node.mem_id for node in spanning}
+        careful_text_cells = self._cells_containing(careful_text_parts)
+        self.hidden_ids: set[int] = set()
         if drop_hidden:
             hidden_nodes = [node for node in table.css("[style], [hidden]") if is_hidden(node)]
-            self.hidden = {node.mem_id for node in hidden_nodes}
-            complex_cells += self._cells_containing(hidden_nodes)
+            self.hidden_ids = {node.mem_id for node in hidden_nodes}
+            careful_text_cells += self._cells_containing(hidden_nodes)
             careful_rows |= _parents(hidden_nodes)
-        self.complex = {node.mem_id for node in complex_cells}
-        self.careful_rows = careful_rows | _parents(spanning) | _parents(complex_cells)
+        self.careful_text_ids = {node.mem_id for node in careful_text_cells}
+        self.careful_row_ids = careful_rows | _parents(spanning) | _parents(careful_text_cells)
 
     def build(self) -> Grid:
         grid = self.grid
@@ -128,12 +131,14 @@ class _GridBuilder:
         for kind, rows in groups + footers:  # §4.9.12.1: every tfoot is processed last
             self._process_row_group(kind, rows)
         width = grid.width
-        for texts, headers, nodes in zip(grid.text_rows, grid.headers, grid.nodes, strict=True):
+        for texts, header_flags, nodes in zip(
+            grid.text_rows, grid.header_flags, grid.nodes, strict=True
+        ):
             missing = width - len(texts)
             if missing > 0:
                 texts.extend([""] * missing)
-                if headers is not None and nodes is not None:
-                    headers.extend([False] * missing)
+                if header_flags is not None and nodes is not None:
+                    header_flags.extend([False] * missing)
                     nodes.extend([None] * missing)
         return grid
 
@@ -151,13 +156,13 @@ class _GridBuilder:
     def _colgroup_width(self, colgroup: LexborNode) -> int:
         cols = [col for col in colgroup.iter() if col.tag == "col"]
         if not cols:
-            return parse_span(colgroup.attributes.get("span"), 1, 1, MAX_COL_SPAN_ATTR)
-        return sum(parse_span(col.attributes.get("span"), 1, 1, MAX_COL_SPAN_ATTR) for col in cols)
+            return parse_span(colgroup.attributes.get("span"), 1, 1, MAX_COLGROUP_SPAN)
+        return sum(parse_span(col.attributes.get("span"), 1, 1, MAX_COLGROUP_SPAN) for col in cols)
 
     def _process_row_group(self, kind: str, rows: list[LexborNode]) -> None:
         grid = self.grid
-        if self.hidden:
-            rows = [row for row in rows if row.mem_id not in self.hidden]
+        if self.hidden_ids:
+            rows = [row for row in rows if row.mem_id not in self.hidden_ids]
         group_end = len(grid.row_nodes) + len(rows)
         for tr in rows:
             y = len(grid.row_nodes)
@@ -166,11 +171,11 @@ class _GridBuilder:
             if self.growing:
                 self._grow(y)
             if y == len(grid.text_rows):
-                if tr.mem_id not in self.careful_rows:
+                if tr.mem_id not in self.careful_row_ids:
                     # A plain row: td cells only, no spans, no slot taken from above.
                     texts = collapsed([cell.text_lexbor() for cell in tr.iter()])
                     grid.text_rows.append(texts)
-                    grid.headers.append(None)
+                    grid.header_flags.append(None)
                     grid.nodes.append(None)
                     grid.plain_widths[y] = len(texts)
                     if len(texts) > grid.width:
@@ -178,14 +183,14 @@ class _GridBuilder:
                     continue
                 self._add_row()
             cells = [cell for cell in tr.iter() if cell.tag in _CELL_TAGS]
-            if self.hidden:
-                cells = [cell for cell in cells if cell.mem_id not in self.hidden]
+            if self.hidden_ids:
+                cells = [cell for cell in cells if cell.mem_id not in self.hidden_ids]
             self._process_row(y, cells, group_end)
         self.growing.clear()  # §4.9.12.1 "ending a row group"
 
     def _add_row(self) -> None:
         self.grid.text_rows.append([])
-        self.grid.headers.append([])
+        self.grid.header_flags.append([])
         self.grid.nodes.append([])
 
     def _grow(self, y: int) -> None:
@@ -193,12 +198,12 @@ class _GridBuilder:
         while len(self.grid.text_rows) <= y:
             self._add_row()
         for node, text, header, x, anchor_y, width in self.growing:
-            self._claim(node, text, header, x, anchor_y, width, y, True)
+            self._claim(node, text, header, x, anchor_y, width, y)
 
     def _process_row(self, y: int, cells: list[LexborNode], group_end: int) -> None:
         grid = self.grid
-        texts, headers, nodes = grid.text_rows[y], grid.headers[y], grid.nodes[y]
-        assert headers is not None and nodes is not None  # careful rows keep both
+        texts, header_flags, nodes = grid.text_rows[y], grid.header_flags[y], grid.nodes[y]
+        assert header_flags is not None and nodes is not None  # careful rows keep both
         x = 0
         for node in cells:
             while x < len(nodes) and nodes[x] is not None:
@@ -206,7 +211,7 @@ class _GridBuilder:
             width = height = 1
             grows = False
             mem_id = node.mem_id
-            if mem_id in self.spanning:
+            if mem_id in self.spanning_ids:
                 attributes = node.attributes
                 width = parse_span(attributes.get("colspan"), 1, 1, MAX_COLSPAN)
                 rowspan = parse_span(attributes.get("rowspan"), 1, 0, MAX_ROWSPAN)
@@ -214,7 +219,7 @@ class _GridBuilder:
                 # cut at that end (our one departure, see the module docstring).
                 grows = rowspan == 0
                 height = group_end - y if grows else min(rowspan, group_end - y)
-            if mem_id in self.complex:
+            if mem_id in self.careful_text_ids:
                 text = cell_text(node, drop_hidden=self.drop_hidden)
             else:
                 text = " ".join(node.text_lexbor().split())
@@ -223,10 +228,10 @@ class _GridBuilder:
                 # The common cell, claimed inline: this loop runs once per cell.
                 if x == len(nodes):
                     texts.append(text)
-                    headers.append(header)
+                    header_flags.append(header)
                     nodes.append(node)
                 elif nodes[x] is None:  # a gap left by a wider cell overlapping this row
-                    texts[x], headers[x], nodes[x] = text, header, node
+                    texts[x], header_flags[x], nodes[x] = text, header, node
                 else:
                     grid.overlaps.append((x, y))
                 x += 1
@@ -235,7 +240,7 @@ class _GridBuilder:
                 continue
             grid.spans[(x, y)] = (width, height)
             for row_y in range(y, y + (1 if grows else height)):
-                self._claim(node, text, header, x, y, width, row_y, True)
+                self._claim(node, text, header, x, y, width, row_y)
             if grows and height > 1:
                 self.growing.append((node, text, header, x, y, width))
             x += width
@@ -251,19 +256,22 @@ class _GridBuilder:
         anchor_y: int,
         width: int,
         row_y: int,
-        spanning: bool,
     ) -> None:
         """Let the cell anchored at (x, anchor_y) cover its slots in row ``row_y``."""
         grid = self.grid
         while len(grid.text_rows) <= row_y:
             self._add_row()
         end = x + width
-        texts, headers, nodes = grid.text_rows[row_y], grid.headers[row_y], grid.nodes[row_y]
-        assert headers is not None and nodes is not None  # rows with spans are careful rows
+        texts, header_flags, nodes = (
+            grid.text_rows[row_y],
+            grid.header_flags[row_y],
+            grid.nodes[row_y],
+        )
+        assert header_flags is not None and nodes is not None  # rows with spans are careful rows
         missing = end - len(nodes)
         if missing > 0:
             texts.extend([""] * missing)
-            headers.extend([False] * missing)
+            header_flags.extend([False] * missing)
             nodes.extend([None] * missing)
         for slot_x in range(x, end):
             if nodes[slot_x] is not None:
@@ -272,7 +280,6 @@ class _GridBuilder:
                 grid.overlaps.append((slot_x, row_y))
                 continue
             texts[slot_x] = text
-            headers[slot_x] = header
+            header_flags[slot_x] = header
             nodes[slot_x] = node
-            if spanning:
-                grid.owners[(slot_x, row_y)] = (x, anchor_y)
+            grid.owners[(slot_x, row_y)] = (x, anchor_y)

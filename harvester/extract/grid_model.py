@@ -37,7 +37,7 @@ class Grid:
     """A table's slots, stored as matrices so that large tables stay cheap.
 
     ``text_rows[y][x]`` is the text of the cell covering slot (x, y) ("" where no cell does).
-    For rows that needed care (spans, ``th`` cells, slots taken from above), ``headers[y][x]``
+    For rows that needed care (spans, ``th`` cells, slots taken from above), ``header_flags[y][x]``
     says whether the covering cell is a ``th`` and ``nodes[y][x]`` is its element, or None where
     no cell covers the slot. A *plain* row (only ``td`` cells, nothing spanning into it) keeps
     None in both: its cells are its ``td`` children in order, ``plain_widths[y]`` of them. This
@@ -49,7 +49,7 @@ class Grid:
     __slots__ = (
         "_cells",
         "caption",
-        "headers",
+        "header_flags",
         "nodes",
         "overlaps",
         "owners",
@@ -63,7 +63,7 @@ class Grid:
 
     def __init__(self, row_groups: list[str], row_nodes: list[LexborNode]) -> None:
         self.text_rows: list[list[str]] = []
-        self.headers: list[list[bool] | None] = []
+        self.header_flags: list[list[bool] | None] = []
         self.nodes: list[list[LexborNode | None] | None] = []
         self.plain_widths: dict[int, int] = {}
         self.owners: dict[tuple[int, int], tuple[int, int]] = {}
@@ -89,8 +89,8 @@ class Grid:
 
     def is_header(self, x: int, y: int) -> bool:
         """Whether the cell covering slot (x, y) is a ``th``."""
-        headers = self.headers[y]
-        return headers is not None and headers[x]
+        header_flags = self.header_flags[y]
+        return header_flags is not None and header_flags[x]
 
     def node(self, x: int, y: int) -> LexborNode | None:
         """The element of the cell covering slot (x, y), or None."""
