@@ -57,7 +57,7 @@ class ExtractedTable:
 
 @dataclass
 class _Body:
-    rows: list[int]
+    source_rows: list[int]  # 0-based grid row (y) of each body row
     texts: list[tuple[str, ...]]
     groups: list[str | None]
 
@@ -114,32 +114,14 @@ def _extract_table(page: Page, rule: TableRule, base_url: str | None) -> Extract
     located = locate_table(page, rule.select, rule.index)
     where = f"{page.source}: table {rule.name!r} ({rule.select})"
     grid = build_grid(located.node, drop_hidden=rule.hidden == "drop")
-    header_rows = header_row_indices(grid, rule.header_rows)
-    names = deduplicate(collapse_headers(grid, header_rows, rule.header_separator))
+    header_indices = header_row_indices(grid, rule.header_rows)
+    names = deduplicate(collapse_headers(grid, header_indices, rule.header_separator))
     names = rename_columns(names, rule.rename, where)
     _check_column_rules(rule, names, where)
 
-    body = _body_rows(grid, header_rows, rule)
+    body = _read_body(grid, header_indices, rule)
     body = _apply_row_drops(body, names, rule, where)
-    columns: list[pa.Array] = []
-    column_names: list[str] = []
-    if rule.group_rows == "column" and any(group is not None for group in body.groups):
-        columns.append(pa.array(body.groups, type=pa.string()))
-        column_names.append(rule.group_column)
-    body_rows, grid_rows = _row_numbers(body.rows, header_rows)
-    for x, name in enumerate(names):
-        texts = [row[x] for row in body.texts]
-        own = rule.column(name)
-        typed = convert_column(name, texts, own, rule, body_rows=body_rows, grid_rows=grid_rows)
-        columns.append(typed.values)
-        column_names.append(name)
-        if typed.markers is not None and own is not None and own.markers_to:
-            columns.append(typed.markers)
-            column_names.append(own.markers_to)
-        for derived in rule.columns:
-            if derived.link_of == name:
-                columns.append(_links(grid, body.rows, x, derived, base_url))
-                column_names.append(derived.name)
+    columns, column_names = _columns(grid, header_indices, body, names, rule, base_url)
     missing_keys = [key for key in rule.key if key not in column_names]
     if missing_keys:
         raise ExtractError(
@@ -149,13 +131,46 @@ def _extract_table(page: Page, rule: TableRule, base_url: str | None) -> Extract
     return ExtractedTable(
         name=rule.name,
         table=pa.Table.from_arrays(columns, names=column_names),
-        source_rows=tuple(body.rows),
+        source_rows=tuple(body.source_rows),
         selector=rule.select,
         index=located.index,
         in_comment=located.in_comment,
         caption=grid.caption,
         overlaps=len(grid.overlaps),
     )
+
+
+def _columns(
+    grid: Grid,
+    header_indices: Sequence[int],
+    body: _Body,
+    names: Sequence[str],
+    rule: TableRule,
+    base_url: str | None,
+) -> tuple[list[pa.Array], list[str]]:
+    """The output columns and their names: group labels, typed columns, markers and links."""
+    columns: list[pa.Array] = []
+    column_names: list[str] = []
+    if rule.group_rows == "column" and any(group is not None for group in body.groups):
+        columns.append(pa.array(body.groups, type=pa.string()))
+        column_names.append(rule.group_column)
+    body_rows, grid_rows = _row_numbers(body.source_rows, header_indices)
+    for x, name in enumerate(names):
+        texts = [row[x] for row in body.texts]
+        column_rule = rule.column(name)
+        typed = convert_column(
+            name, texts, column_rule, rule, body_rows=body_rows, grid_rows=grid_rows
+        )
+        columns.append(typed.values)
+        column_names.append(name)
+        if typed.markers is not None and column_rule is not None and column_rule.markers_to:
+            columns.append(typed.markers)
+            column_names.append(column_rule.markers_to)
+        for derived in rule.columns:
+            if derived.link_of == name:
+                columns.append(_links(grid, body.source_rows, x, derived, base_url))
+                column_names.append(derived.name)
+    return columns, column_names
 
 
 def _check_column_rules(rule: TableRule, names: Sequence[str], where: str) -> None:
@@ -186,9 +201,10 @@ def _check_column_rules(rule: TableRule, names: Sequence[str], where: str) -> No
         )
 
 
-def _body_rows(grid: Grid, header_rows: Sequence[int], rule: TableRule) -> _Body:
-    header_set = set(header_rows)
-    header_texts = {grid.row_texts(y) for y in header_rows} if rule.drop_repeated_headers else set()
+def _read_body(grid: Grid, header_indices: Sequence[int], rule: TableRule) -> _Body:
+    header_set = set(header_indices)
+    repeated = rule.drop_repeated_headers
+    header_texts = {grid.row_texts(y) for y in header_indices} if repeated else set()
     body = _Body([], [], [])
     group: str | None = None
     for y in range(grid.height):
@@ -202,21 +218,24 @@ def _body_rows(grid: Grid, header_rows: Sequence[int], rule: TableRule) -> _Body
             continue
         if rule.drop_empty_rows and not any(texts):
             continue
-        body.rows.append(y)
+        body.source_rows.append(y)
         body.texts.append(texts)
         body.groups.append(group)
     return body
 
 
-def _row_numbers(rows: Sequence[int], header_rows: Sequence[int]) -> tuple[list[int], list[int]]:
-    """Each of the grid ``rows`` numbered from 1 in the table body, and in the whole grid.
+def _row_numbers(
+    source_rows: Sequence[int], header_indices: Sequence[int]
+) -> tuple[list[int], list[int]]:
+    """Each of the grid rows ``source_rows`` numbered from 1 in the table body, and in the grid.
 
     The body count runs over every grid row that is not a header row, rows dropped later
     included, so the first row under the header is row 1 of the body whatever is dropped.
     Grid rows follow the table model's order, which puts every ``tfoot`` last.
     """
-    headers = sorted(header_rows)
-    return [y + 1 - bisect_right(headers, y) for y in rows], [y + 1 for y in rows]
+    headers = sorted(header_indices)
+    body_rows = [y + 1 - bisect_right(headers, y) for y in source_rows]
+    return body_rows, [y + 1 for y in source_rows]
 
 
 def _apply_row_drops(body: _Body, names: Sequence[str], rule: TableRule, where: str) -> _Body:
@@ -231,21 +250,22 @@ def _apply_row_drops(body: _Body, names: Sequence[str], rule: TableRule, where: 
             )
         tests.append((names.index(drop.column), re.compile(drop.matches)))
     kept = _Body([], [], [])
-    for y, texts, group in zip(body.rows, body.texts, body.groups, strict=True):
+    for y, texts, group in zip(body.source_rows, body.texts, body.groups, strict=True):
         if any(pattern.fullmatch(texts[x]) for x, pattern in tests):
             continue
-        kept.rows.append(y)
+        kept.source_rows.append(y)
         kept.texts.append(texts)
         kept.groups.append(group)
     return kept
 
 
 def _links(
-    grid: Grid, rows: Sequence[int], x: int, rule: ColumnRule, base_url: str | None
+    grid: Grid, source_rows: Sequence[int], x: int, link_rule: ColumnRule, base_url: str | None
 ) -> pa.Array:
-    pattern = re.compile(rule.pattern) if rule.pattern else None
+    """The ``link_of`` column ``link_rule`` derives from column ``x``: one link per body row."""
+    pattern = re.compile(link_rule.pattern) if link_rule.pattern else None
     values: list[str | None] = []
-    for y in rows:
+    for y in source_rows:
         href = grid.link(x, y)
         if href is not None and base_url:
             href = urljoin(base_url, href)
