@@ -102,6 +102,18 @@ class _GridBuilder:
         self.careful_row_ids = careful_rows | _parents(spanning) | _parents(careful_text_cells)
 
     def build(self) -> Grid:
+        """Run the algorithm once: row groups in processing order, then short rows padded."""
+        for kind, rows in self._row_groups():
+            self._process_row_group(kind, rows)
+        self._pad_short_rows()
+        return self.grid
+
+    def _row_groups(self) -> list[tuple[str, list[LexborNode]]]:
+        """The table's row groups in processing order; caption and column groups on the way.
+
+        A run of ``tr`` children directly in the table is one group of kind "". Every
+        ``tfoot`` comes last (§4.9.12.1).
+        """
         grid = self.grid
         groups: list[tuple[str, list[LexborNode]]] = []
         footers: list[tuple[str, list[LexborNode]]] = []
@@ -128,19 +140,20 @@ class _GridBuilder:
                 target.append((tag, [row for row in child.iter() if row.tag == "tr"]))
         if bare_rows:
             groups.append(("", bare_rows))
-        for kind, rows in groups + footers:  # §4.9.12.1: every tfoot is processed last
-            self._process_row_group(kind, rows)
-        width = grid.width
-        for texts, header_flags, nodes in zip(
-            grid.text_rows, grid.header_flags, grid.nodes, strict=True
-        ):
-            missing = width - len(texts)
-            if missing > 0:
-                texts.extend([""] * missing)
-                if header_flags is not None and nodes is not None:
-                    header_flags.extend([False] * missing)
-                    nodes.extend([None] * missing)
-        return grid
+        return groups + footers
+
+    def _pad_short_rows(self) -> None:
+        """Give every row the table's width: slots no cell covers are empty."""
+        grid = self.grid
+        for y, texts in enumerate(grid.text_rows):
+            missing = grid.width - len(texts)
+            if missing <= 0:
+                continue
+            texts.extend([""] * missing)
+            header_flags, nodes = grid.header_flags[y], grid.nodes[y]
+            if header_flags is not None and nodes is not None:  # plain rows keep neither
+                header_flags.extend([False] * missing)
+                nodes.extend([None] * missing)
 
     def _cells_containing(self, nodes: list[LexborNode]) -> list[LexborNode]:
         """The cells (of any table) that contain one of ``nodes``."""
