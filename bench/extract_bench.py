@@ -8,10 +8,10 @@ rows, about 2 MB) and times, as the median of several repeats in this one run:
 It prints c/b (aim >= 8) and b/a (aim <= 2.5), and the peak resident memory of (b) measured in
 a fresh child process, as a multiple of the page size.
 
-It also asks whether pausing the cyclic garbage collector is worth it: the same extraction
-without the pause extract_table takes (harvester.extract.collector), once with the collector
-running as it normally does and once with it switched off, timed turn about; it prints their
-ratio and the collections one unpaused run triggers.
+It also asks whether pausing the cyclic garbage collector is worth it: (d) the same extraction
+without the pause extract_table takes (harvester.extract.collector), with the collector running
+as it normally does, and (e) that again with the collector switched off. It prints d/e and the
+collections one run of (d) triggers. (a), (b), (d) and (e) are timed turn about.
 
 Usage: .venv/bin/python bench/extract_bench.py [--rows 5000] [--repeats 5]
 """
@@ -210,8 +210,19 @@ def main() -> None:
     )
     print(f"ours: {result.table.num_rows} rows; pandas.read_html: {len(frames[0])} rows")  # type: ignore[arg-type]
 
-    parse = median_seconds(lambda: LexborHTMLParser(data), args.repeats)
-    ours = median_seconds(lambda: extract_table(data, rule), args.repeats)  # bytes, as fetched
+    def unpaused() -> object:
+        return _extract_table(read_page(data), rule, None)
+
+    # (a), (b), (d) and (e) run turn about, so the ratios between them compare like with like.
+    parse, ours, running, off = alternating_medians(
+        [
+            lambda: LexborHTMLParser(data),
+            lambda: extract_table(data, rule),  # bytes, as fetched
+            unpaused,
+            with_collector_off(unpaused),
+        ],
+        args.repeats,
+    )
     reference = median_seconds(lambda: read_with_pandas(html), max(1, args.repeats // 2))
     print(f"(a) bare lexbor parse      {parse * 1000:9.1f} ms")
     print(f"(b) harvester extraction   {ours * 1000:9.1f} ms")
@@ -219,10 +230,6 @@ def main() -> None:
     print(f"c/b = {reference / ours:.1f}   (aim >= 8)")
     print(f"b/a = {ours / parse:.2f}   (aim <= 2.5)")
 
-    def unpaused() -> object:
-        return _extract_table(read_page(data), rule, None)
-
-    running, off = alternating_medians([unpaused, with_collector_off(unpaused)], args.repeats)
     counts, collecting = collections_during(unpaused)
     print(f"collector, without extract_table's pause ({len(gc.get_objects()):,} objects tracked):")
     print(f"  (d) collector running      {running * 1000:9.1f} ms")
