@@ -11,7 +11,8 @@ a fresh child process, as a multiple of the page size.
 It also asks whether pausing the cyclic garbage collector is worth it: (d) the same extraction
 without the pause extract_table takes (harvester.extract.collector), with the collector running
 as it normally does, and (e) that again with the collector switched off. It prints d/e and the
-collections one run of (d) triggers. (a), (b), (d) and (e) are timed turn about.
+collections that runs of (d) trigger. (a), (b), (d) and (e) are timed turn about; for (d) and
+(e) it shows mean and median, since a full collection comes only every few runs.
 
 Usage: .venv/bin/python bench/extract_bench.py [--rows 5000] [--repeats 5]
 """
@@ -100,8 +101,11 @@ def median_seconds(action: Callable[[], object], repeats: int) -> float:
     return statistics.median(times)
 
 
-def alternating_medians(actions: Sequence[Callable[[], object]], repeats: int) -> list[float]:
-    """Median wall time of each action, the actions run turn about so drift hits all alike."""
+def alternating_times(actions: Sequence[Callable[[], object]], repeats: int) -> list[list[float]]:
+    """Wall times of ``repeats`` runs of each action (after one warm-up), run turn about.
+
+    Taking turns spreads changes in the machine's load over all the actions alike.
+    """
     for action in actions:
         action()
     times: list[list[float]] = [[] for _ in actions]
@@ -110,7 +114,7 @@ def alternating_medians(actions: Sequence[Callable[[], object]], repeats: int) -
             start = time.perf_counter()
             action()
             spent.append(time.perf_counter() - start)
-    return [statistics.median(spent) for spent in times]
+    return times
 
 
 def with_collector_off(action: Callable[[], object]) -> Callable[[], object]:
@@ -128,8 +132,8 @@ def with_collector_off(action: Callable[[], object]) -> Callable[[], object]:
     return run
 
 
-def collections_during(action: Callable[[], object]) -> tuple[dict[int, int], float]:
-    """How many collections of each generation one run of ``action`` triggers, and their time."""
+def collections_during(action: Callable[[], object], runs: int) -> tuple[dict[int, int], float]:
+    """Collections of each generation that ``runs`` runs of ``action`` trigger, and their time."""
     counts: dict[int, int] = {}
     spent = [0.0, 0.0]  # start of the current collection, total so far
 
@@ -142,7 +146,8 @@ def collections_during(action: Callable[[], object]) -> tuple[dict[int, int], fl
 
     gc.callbacks.append(note)
     try:
-        action()
+        for _ in range(runs):
+            action()
     finally:
         gc.callbacks.remove(note)
     return dict(sorted(counts.items())), spent[1]
@@ -214,7 +219,7 @@ def main() -> None:
         return _extract_table(read_page(data), rule, None)
 
     # (a), (b), (d) and (e) run turn about, so the ratios between them compare like with like.
-    parse, ours, running, off = alternating_medians(
+    parse_times, our_times, running_times, off_times = alternating_times(
         [
             lambda: LexborHTMLParser(data),
             lambda: extract_table(data, rule),  # bytes, as fetched
@@ -223,6 +228,7 @@ def main() -> None:
         ],
         args.repeats,
     )
+    parse, ours = statistics.median(parse_times), statistics.median(our_times)
     reference = median_seconds(lambda: read_with_pandas(html), max(1, args.repeats // 2))
     print(f"(a) bare lexbor parse      {parse * 1000:9.1f} ms")
     print(f"(b) harvester extraction   {ours * 1000:9.1f} ms")
@@ -230,13 +236,26 @@ def main() -> None:
     print(f"c/b = {reference / ours:.1f}   (aim >= 8)")
     print(f"b/a = {ours / parse:.2f}   (aim <= 2.5)")
 
-    counts, collecting = collections_during(unpaused)
+    counts, collecting = collections_during(unpaused, args.repeats)
     print(f"collector, without extract_table's pause ({len(gc.get_objects()):,} objects tracked):")
-    print(f"  (d) collector running      {running * 1000:9.1f} ms")
-    print(f"  (e) collector switched off {off * 1000:9.1f} ms")
-    print(f"  d/e = {running / off:.2f}")
+    # A full collection comes only every few runs, so the mean is what a long harvest pays;
+    # the median shows a typical run.
+    for label, spent in (
+        ("(d) collector running     ", running_times),
+        ("(e) collector switched off", off_times),
+    ):
+        print(
+            f"  {label} median {statistics.median(spent) * 1000:7.1f} ms, "
+            f"mean {statistics.mean(spent) * 1000:7.1f} ms"
+        )
+    medians = statistics.median(running_times) / statistics.median(off_times)
+    means = statistics.mean(running_times) / statistics.mean(off_times)
+    print(f"  d/e = {medians:.2f} (medians), {means:.2f} (means)")
     shown = ", ".join(f"generation {generation}: {n}" for generation, n in counts.items())
-    print(f"  one run of (d): {shown or 'no collections'}; {collecting * 1000:.1f} ms collecting")
+    print(
+        f"  {args.repeats} more runs of (d): {shown or 'no collections'}; "
+        f"{collecting / args.repeats * 1000:.1f} ms collecting per run"
+    )
     for rows in (args.rows, args.memory_rows):
         page = data if rows == args.rows else build_page(rows).encode()
         before, peak = peak_memory_kib(page)
