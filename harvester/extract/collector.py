@@ -3,9 +3,9 @@
 Why pause at all: extracting a large table makes tens of thousands of lists, tuples and element
 handles that all stay alive until the extraction ends. The cyclic collector runs whenever enough
 new objects have piled up, so it walks those live objects again and again (and a full
-collection walks every object in the process) without finding garbage among them. On the
-benchmark page that is a fifth of the extraction's time, and more as tables grow; the numbers
-and the command are in BENCHMARKS.md ("Extraction", the collector).
+collection walks every object in the process) without finding garbage among them. That costs
+about a fifth of the extraction's time, on the benchmark page and on one ten times its size;
+the numbers and the command are in BENCHMARKS.md ("Extraction": the garbage collector).
 
 Why a guard and not ``gc.disable()`` / ``gc.enable()`` around the work: the collector's switch
 is one flag for the whole process. Two extractions in two threads that each switched it would
