@@ -176,13 +176,13 @@ class _CellRows:
 
     @classmethod
     def checked(
-        cls, name: str, cells: int, body: Sequence[int] | None, grid: Sequence[int] | None
+        cls, name: str, count: int, body: Sequence[int] | None, grid: Sequence[int] | None
     ) -> _CellRows:
-        """The row numbers for ``cells`` cells, the body rows 1, 2, 3, … unless given."""
+        """The row numbers of ``count`` cells, the body rows 1, 2, 3, … unless given."""
         for numbers, what in ((body, "body row numbers"), (grid, "grid row numbers")):
-            if numbers is not None and len(numbers) != cells:
-                raise ValueError(f"column {name!r}: {cells} cells but {len(numbers)} {what}")
-        return cls(body if body is not None else range(1, cells + 1), grid)
+            if numbers is not None and len(numbers) != count:
+                raise ValueError(f"column {name!r}: {count} cells but {len(numbers)} {what}")
+        return cls(body if body is not None else range(1, count + 1), grid)
 
     def describe(self, i: int) -> str:
         """Where cell ``i`` sits, e.g. ``row 3 of the table body (grid row 5)``."""
@@ -199,7 +199,7 @@ _PAST_64_BITS_HINT = 'it is past 64 bits; declare type = "decimal" or "text"'
 def _boolean_column(
     name: str, texts: Sequence[str], rule: ColumnRule, table: TableRule, rows: _CellRows
 ) -> TypedColumn:
-    """A declared boolean column: true values, empty cells (false) and nulls, markers kept."""
+    """A declared boolean column: true values, empty cells (false) and nulls; markers if asked."""
     true_values = frozenset(rule.true_values or DEFAULT_TRUE_VALUES)
     nulls = frozenset(table.nulls)
     values: list[bool | None] = []
