@@ -8,12 +8,19 @@ rows, about 2 MB) and times, as the median of several repeats in this one run:
 It prints c/b (aim >= 8) and b/a (aim <= 2.5), and the peak resident memory of (b) measured in
 a fresh child process, as a multiple of the page size.
 
+It also asks whether pausing the cyclic garbage collector is worth it: (d) the same extraction
+without the pause extract_table takes (harvester.extract.collector), with the collector running
+as it normally does, and (e) that again with the collector switched off. It prints d/e and the
+collections that runs of (d) trigger. (a), (b), (d) and (e) are timed turn about; for (d) and
+(e) it shows mean and median, since a full collection comes only every few runs.
+
 Usage: .venv/bin/python bench/extract_bench.py [--rows 5000] [--repeats 5]
 """
 
 from __future__ import annotations
 
 import argparse
+import gc
 import io
 import random
 import statistics
@@ -21,7 +28,7 @@ import subprocess
 import sys
 import tempfile
 import time
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 
 GROUPS = (
     ("Shooting", ("Goals", "Shots", "Pct")),
@@ -94,6 +101,58 @@ def median_seconds(action: Callable[[], object], repeats: int) -> float:
     return statistics.median(times)
 
 
+def alternating_times(actions: Sequence[Callable[[], object]], repeats: int) -> list[list[float]]:
+    """Wall times of ``repeats`` runs of each action (after one warm-up), run turn about.
+
+    Taking turns spreads changes in the machine's load over all the actions alike.
+    """
+    for action in actions:
+        action()
+    times: list[list[float]] = [[] for _ in actions]
+    for _ in range(repeats):
+        for action, spent in zip(actions, times, strict=True):
+            start = time.perf_counter()
+            action()
+            spent.append(time.perf_counter() - start)
+    return times
+
+
+def with_collector_off(action: Callable[[], object]) -> Callable[[], object]:
+    """``action`` run with the cyclic collector switched off, and its state restored after."""
+
+    def run() -> object:
+        was_enabled = gc.isenabled()
+        gc.disable()
+        try:
+            return action()
+        finally:
+            if was_enabled:
+                gc.enable()
+
+    return run
+
+
+def collections_during(action: Callable[[], object], runs: int) -> tuple[dict[int, int], float]:
+    """Collections of each generation that ``runs`` runs of ``action`` trigger, and their time."""
+    counts: dict[int, int] = {}
+    spent = [0.0, 0.0]  # start of the current collection, total so far
+
+    def note(phase: str, info: dict[str, int]) -> None:
+        if phase == "start":
+            spent[0] = time.perf_counter()
+        else:
+            spent[1] += time.perf_counter() - spent[0]
+            counts[info["generation"]] = counts.get(info["generation"], 0) + 1
+
+    gc.callbacks.append(note)
+    try:
+        for _ in range(runs):
+            action()
+    finally:
+        gc.callbacks.remove(note)
+    return dict(sorted(counts.items())), spent[1]
+
+
 _PEAK_SCRIPT = """
 import sys
 from harvester import TableRule, extract_table
@@ -143,7 +202,8 @@ def main() -> None:
 
     from selectolax.lexbor import LexborHTMLParser
 
-    from harvester import TableRule, extract_table
+    from harvester import TableRule, extract_table, read_page
+    from harvester.extract.table import _extract_table  # the pipeline without the pause
 
     html = build_page(args.rows)
     data = html.encode()
@@ -155,14 +215,47 @@ def main() -> None:
     )
     print(f"ours: {result.table.num_rows} rows; pandas.read_html: {len(frames[0])} rows")  # type: ignore[arg-type]
 
-    parse = median_seconds(lambda: LexborHTMLParser(data), args.repeats)
-    ours = median_seconds(lambda: extract_table(data, rule), args.repeats)  # bytes, as fetched
+    def unpaused() -> object:
+        return _extract_table(read_page(data), rule, None)
+
+    # (a), (b), (d) and (e) run turn about, so the ratios between them compare like with like.
+    parse_times, our_times, running_times, off_times = alternating_times(
+        [
+            lambda: LexborHTMLParser(data),
+            lambda: extract_table(data, rule),  # bytes, as fetched
+            unpaused,
+            with_collector_off(unpaused),
+        ],
+        args.repeats,
+    )
+    parse, ours = statistics.median(parse_times), statistics.median(our_times)
     reference = median_seconds(lambda: read_with_pandas(html), max(1, args.repeats // 2))
     print(f"(a) bare lexbor parse      {parse * 1000:9.1f} ms")
     print(f"(b) harvester extraction   {ours * 1000:9.1f} ms")
     print(f"(c) pandas.read_html(lxml) {reference * 1000:9.1f} ms")
     print(f"c/b = {reference / ours:.1f}   (aim >= 8)")
     print(f"b/a = {ours / parse:.2f}   (aim <= 2.5)")
+
+    counts, collecting = collections_during(unpaused, args.repeats)
+    print(f"collector, without extract_table's pause ({len(gc.get_objects()):,} objects tracked):")
+    # A full collection comes only every few runs, so the mean is what a long harvest pays;
+    # the median shows a typical run.
+    for label, spent in (
+        ("(d) collector running     ", running_times),
+        ("(e) collector switched off", off_times),
+    ):
+        print(
+            f"  {label} median {statistics.median(spent) * 1000:7.1f} ms, "
+            f"mean {statistics.mean(spent) * 1000:7.1f} ms"
+        )
+    medians = statistics.median(running_times) / statistics.median(off_times)
+    means = statistics.mean(running_times) / statistics.mean(off_times)
+    print(f"  d/e = {medians:.2f} (medians), {means:.2f} (means)")
+    shown = ", ".join(f"generation {generation}: {n}" for generation, n in counts.items())
+    print(
+        f"  {args.repeats} more runs of (d): {shown or 'no collections'}; "
+        f"{collecting / args.repeats * 1000:.1f} ms collecting per run"
+    )
     for rows in (args.rows, args.memory_rows):
         page = data if rows == args.rows else build_page(rows).encode()
         before, peak = peak_memory_kib(page)

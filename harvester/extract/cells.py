@@ -13,8 +13,8 @@ import re
 from selectolax.lexbor import LexborNode
 
 __all__ = [
+    "MAX_COLGROUP_SPAN",
     "MAX_COLSPAN",
-    "MAX_COL_SPAN_ATTR",
     "MAX_ROWSPAN",
     "cell_text",
     "collapsed",
@@ -25,7 +25,7 @@ __all__ = [
 
 MAX_COLSPAN = 1000  # HTML §4.9.12.1 step "colspan": values above 1000 are treated as 1000
 MAX_ROWSPAN = 65534  # HTML §4.9.12.1 step "rowspan": values above 65534 are treated as 65534
-MAX_COL_SPAN_ATTR = 1000  # HTML §4.9.12.1 "column groups": span above 1000 is treated as 1000
+MAX_COLGROUP_SPAN = 1000  # HTML §4.9.12.1 "column groups": span above 1000 is treated as 1000
 
 # Elements whose text is not part of a cell's text: nested tables belong to themselves,
 # and script/style/template hold no visible text.

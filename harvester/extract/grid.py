@@ -13,13 +13,10 @@ cannot extend beyond the last row box of its row group), and it stops one attrib
 
 from __future__ import annotations
 
-import gc
-from dataclasses import dataclass, field
-
 from selectolax.lexbor import LexborNode
 
 from harvester.extract.cells import (
-    MAX_COL_SPAN_ATTR,
+    MAX_COLGROUP_SPAN,
     MAX_COLSPAN,
     MAX_ROWSPAN,
     cell_text,
@@ -28,8 +25,10 @@ from harvester.extract.cells import (
     link_of,
     parse_span,
 )
+from harvester.extract.grid_model import Cell, Grid
 
-# The cell-level rules live in cells.py; they are re-exported here for callers of the grid.
+# The cell-level rules (cells.py) and the result types (grid_model.py) are re-exported here for
+# callers of the grid.
 __all__ = [
     "MAX_COLSPAN",
     "MAX_ROWSPAN",
@@ -45,140 +44,11 @@ __all__ = [
 
 _ROW_GROUPS = frozenset({"thead", "tbody", "tfoot"})
 _CELL_TAGS = frozenset({"td", "th"})
-_COMPLEX_TAGS = frozenset({"br", "table", "script", "style", "template"})
+# Inside a cell, these make its text need cell_text: br reads as a space, and nested tables,
+# scripts, styles and templates are left out.
+_CAREFUL_TEXT_TAGS = frozenset({"br", "table", "script", "style", "template"})
 # th cells and stray children of tr (script, form) are both "tr > :not(td)".
 _CAREFUL_SELECTOR = "td[colspan], td[rowspan], br, table, script, style, template, tr > :not(td)"
-
-
-@dataclass(slots=True, eq=False)
-class Cell:
-    """One ``td`` or ``th`` placed in the grid: its text and the slots it covers."""
-
-    text: str
-    header: bool
-    x: int
-    y: int
-    width: int
-    height: int
-    node: LexborNode = field(repr=False)
-
-    def link(self) -> str | None:
-        """The ``href`` of the first link inside the cell, if any."""
-        return link_of(self.node)
-
-
-class Grid:
-    """A table's slots, stored as matrices so that large tables stay cheap.
-
-    ``text_rows[y][x]`` is the text of the cell covering slot (x, y) ("" where no cell does).
-    For rows that needed care (spans, ``th`` cells, slots taken from above), ``headers[y][x]``
-    says whether the covering cell is a ``th`` and ``nodes[y][x]`` is its element, or None where
-    no cell covers the slot. A *plain* row (only ``td`` cells, nothing spanning into it) keeps
-    None in both: its cells are its ``td`` children in order, ``plain_widths[y]`` of them. This
-    keeps one list per row instead of three plus one element handle per slot, which is most of
-    the cost on large pages. Slots covered by a spanning cell map to the cell's anchor
-    (top-left) slot in ``owners``. ``rows`` gives the same grid as Cell objects.
-    """
-
-    __slots__ = (
-        "_cells",
-        "caption",
-        "headers",
-        "nodes",
-        "overlaps",
-        "owners",
-        "plain_widths",
-        "row_groups",
-        "row_nodes",
-        "spans",
-        "text_rows",
-        "width",
-    )
-
-    def __init__(self, row_groups: list[str], row_nodes: list[LexborNode]) -> None:
-        self.text_rows: list[list[str]] = []
-        self.headers: list[list[bool] | None] = []
-        self.nodes: list[list[LexborNode | None] | None] = []
-        self.plain_widths: dict[int, int] = {}
-        self.owners: dict[tuple[int, int], tuple[int, int]] = {}
-        self.spans: dict[tuple[int, int], tuple[int, int]] = {}  # anchor → (width, height)
-        self.width = 0
-        self.row_groups = row_groups  # "thead", "tbody", "tfoot" or "" (tr directly in table)
-        self.row_nodes = row_nodes
-        self.caption: str | None = None
-        self.overlaps: list[tuple[int, int]] = []
-        self._cells: list[list[Cell | None]] | None = None
-
-    @property
-    def height(self) -> int:
-        """Number of rows in the grid."""
-        return len(self.text_rows)
-
-    def has_cell(self, x: int, y: int) -> bool:
-        """Whether a cell covers slot (x, y)."""
-        nodes = self.nodes[y]
-        if nodes is None:
-            return x < self.plain_widths[y]
-        return nodes[x] is not None
-
-    def is_header(self, x: int, y: int) -> bool:
-        """Whether the cell covering slot (x, y) is a ``th``."""
-        headers = self.headers[y]
-        return headers is not None and headers[x]
-
-    def node(self, x: int, y: int) -> LexborNode | None:
-        """The element of the cell covering slot (x, y), or None."""
-        nodes = self.nodes[y]
-        if nodes is not None:
-            return nodes[x]
-        if x >= self.plain_widths[y]:
-            return None
-        return list(self.row_nodes[y].iter())[x]
-
-    def owner(self, x: int, y: int) -> tuple[int, int] | None:
-        """The anchor slot of the cell covering (x, y), or None if no cell covers it."""
-        if not self.has_cell(x, y):
-            return None
-        return self.owners.get((x, y), (x, y))
-
-    def texts(self) -> list[list[str]]:
-        """Every slot's text, a spanning cell's text repeated in each slot it covers."""
-        return [list(row) for row in self.text_rows]
-
-    def row_texts(self, y: int) -> tuple[str, ...]:
-        """The texts of row ``y``, slot by slot."""
-        return tuple(self.text_rows[y])
-
-    def link(self, x: int, y: int) -> str | None:
-        """The link target inside the cell covering (x, y), if any."""
-        node = self.node(x, y)
-        return link_of(node) if node is not None else None
-
-    @property
-    def rows(self) -> list[list[Cell | None]]:
-        """The grid as Cell objects; a spanning cell is the same object in every slot it covers."""
-        if self._cells is None:
-            made: dict[tuple[int, int], Cell] = {}
-            cells: list[list[Cell | None]] = []
-            for y in range(self.height):
-                row: list[Cell | None] = []
-                for x in range(self.width):
-                    node = self.node(x, y)
-                    if node is None:
-                        row.append(None)
-                        continue
-                    anchor = self.owners.get((x, y), (x, y))
-                    cell = made.get(anchor)
-                    if cell is None:
-                        ax, ay = anchor
-                        width, height = self.spans.get(anchor, (1, 1))
-                        header = self.is_header(ax, ay)
-                        cell = Cell(self.text_rows[ay][ax], header, ax, ay, width, height, node)
-                        made[anchor] = cell
-                    row.append(cell)
-                cells.append(row)
-            self._cells = cells
-        return self._cells
 
 
 def build_grid(table: LexborNode, *, drop_hidden: bool = False) -> Grid:
@@ -187,15 +57,7 @@ def build_grid(table: LexborNode, *, drop_hidden: bool = False) -> Grid:
     With ``drop_hidden``, rows and cells hidden by inline ``display: none`` (or ``hidden``)
     are left out before the grid is formed, as a browser leaves them out of its layout.
     """
-    # Pausing the cyclic garbage collector while a large grid fills up roughly halves the
-    # time: the collector would otherwise walk every new list again and again.
-    collecting = gc.isenabled()
-    gc.disable()
-    try:
-        return _GridBuilder(table, drop_hidden).build()
-    finally:
-        if collecting:
-            gc.enable()
+    return _GridBuilder(table, drop_hidden).build()
 
 
 def _parents(nodes: list[LexborNode]) -> set[int]:
@@ -213,7 +75,7 @@ class _GridBuilder:
         # One selector pass over the whole table finds everything that needs care, so that a
         # plain row (td cells only, no spans, plain text) is read with one comprehension.
         spanning: list[LexborNode] = []
-        complex_parts: list[LexborNode] = []
+        careful_text_parts: list[LexborNode] = []
         careful_rows: set[int] = set()
         for node in table.css(_CAREFUL_SELECTOR):
             tag = node.tag
@@ -223,22 +85,35 @@ class _GridBuilder:
                     spanning.append(node)
                 if tag == "th" and (parent := node.parent) is not None:
                     careful_rows.add(parent.mem_id)
-            elif tag in _COMPLEX_TAGS:
-                complex_parts.append(node)
+            elif tag in _CAREFUL_TEXT_TAGS:
+                careful_text_parts.append(node)
             elif (parent := node.parent) is not None and parent.tag == "tr":
                 careful_rows.add(parent.mem_id)  # a script or form among the cells
-        self.spanning = {node.mem_id for node in spanning}
-        complex_cells = self._cells_containing(complex_parts)
-        self.hidden: set[int] = set()
+        # Element handles are new Python objects on every access; their mem_id names the element.
+        self.spanning_ids = {node.mem_id for node in spanning}
+        careful_text_cells = self._cells_containing(careful_text_parts)
+        self.hidden_ids: set[int] = set()
         if drop_hidden:
             hidden_nodes = [node for node in table.css("[style], [hidden]") if is_hidden(node)]
-            self.hidden = {node.mem_id for node in hidden_nodes}
-            complex_cells += self._cells_containing(hidden_nodes)
+            self.hidden_ids = {node.mem_id for node in hidden_nodes}
+            careful_text_cells += self._cells_containing(hidden_nodes)
             careful_rows |= _parents(hidden_nodes)
-        self.complex = {node.mem_id for node in complex_cells}
-        self.careful_rows = careful_rows | _parents(spanning) | _parents(complex_cells)
+        self.careful_text_ids = {node.mem_id for node in careful_text_cells}
+        self.careful_row_ids = careful_rows | _parents(spanning) | _parents(careful_text_cells)
 
     def build(self) -> Grid:
+        """Run the algorithm once: row groups in processing order, then short rows padded."""
+        for kind, rows in self._row_groups():
+            self._process_row_group(kind, rows)
+        self._pad_short_rows()
+        return self.grid
+
+    def _row_groups(self) -> list[tuple[str, list[LexborNode]]]:
+        """The table's row groups in processing order; caption and column groups on the way.
+
+        A run of ``tr`` children directly in the table is one group of kind "". Every
+        ``tfoot`` comes last (§4.9.12.1).
+        """
         grid = self.grid
         groups: list[tuple[str, list[LexborNode]]] = []
         footers: list[tuple[str, list[LexborNode]]] = []
@@ -265,17 +140,20 @@ class _GridBuilder:
                 target.append((tag, [row for row in child.iter() if row.tag == "tr"]))
         if bare_rows:
             groups.append(("", bare_rows))
-        for kind, rows in groups + footers:  # §4.9.12.1: every tfoot is processed last
-            self._process_row_group(kind, rows)
-        width = grid.width
-        for texts, headers, nodes in zip(grid.text_rows, grid.headers, grid.nodes, strict=True):
-            missing = width - len(texts)
-            if missing > 0:
-                texts.extend([""] * missing)
-                if headers is not None and nodes is not None:
-                    headers.extend([False] * missing)
-                    nodes.extend([None] * missing)
-        return grid
+        return groups + footers
+
+    def _pad_short_rows(self) -> None:
+        """Give every row the table's width: slots no cell covers are empty."""
+        grid = self.grid
+        for y, texts in enumerate(grid.text_rows):
+            missing = grid.width - len(texts)
+            if missing <= 0:
+                continue
+            texts.extend([""] * missing)
+            header_flags, nodes = grid.header_flags[y], grid.nodes[y]
+            if header_flags is not None and nodes is not None:  # plain rows keep neither
+                header_flags.extend([False] * missing)
+                nodes.extend([None] * missing)
 
     def _cells_containing(self, nodes: list[LexborNode]) -> list[LexborNode]:
         """The cells (of any table) that contain one of ``nodes``."""
@@ -291,13 +169,13 @@ class _GridBuilder:
     def _colgroup_width(self, colgroup: LexborNode) -> int:
         cols = [col for col in colgroup.iter() if col.tag == "col"]
         if not cols:
-            return parse_span(colgroup.attributes.get("span"), 1, 1, MAX_COL_SPAN_ATTR)
-        return sum(parse_span(col.attributes.get("span"), 1, 1, MAX_COL_SPAN_ATTR) for col in cols)
+            return parse_span(colgroup.attributes.get("span"), 1, 1, MAX_COLGROUP_SPAN)
+        return sum(parse_span(col.attributes.get("span"), 1, 1, MAX_COLGROUP_SPAN) for col in cols)
 
     def _process_row_group(self, kind: str, rows: list[LexborNode]) -> None:
         grid = self.grid
-        if self.hidden:
-            rows = [row for row in rows if row.mem_id not in self.hidden]
+        if self.hidden_ids:
+            rows = [row for row in rows if row.mem_id not in self.hidden_ids]
         group_end = len(grid.row_nodes) + len(rows)
         for tr in rows:
             y = len(grid.row_nodes)
@@ -306,11 +184,11 @@ class _GridBuilder:
             if self.growing:
                 self._grow(y)
             if y == len(grid.text_rows):
-                if tr.mem_id not in self.careful_rows:
+                if tr.mem_id not in self.careful_row_ids:
                     # A plain row: td cells only, no spans, no slot taken from above.
                     texts = collapsed([cell.text_lexbor() for cell in tr.iter()])
                     grid.text_rows.append(texts)
-                    grid.headers.append(None)
+                    grid.header_flags.append(None)
                     grid.nodes.append(None)
                     grid.plain_widths[y] = len(texts)
                     if len(texts) > grid.width:
@@ -318,14 +196,14 @@ class _GridBuilder:
                     continue
                 self._add_row()
             cells = [cell for cell in tr.iter() if cell.tag in _CELL_TAGS]
-            if self.hidden:
-                cells = [cell for cell in cells if cell.mem_id not in self.hidden]
+            if self.hidden_ids:
+                cells = [cell for cell in cells if cell.mem_id not in self.hidden_ids]
             self._process_row(y, cells, group_end)
         self.growing.clear()  # §4.9.12.1 "ending a row group"
 
     def _add_row(self) -> None:
         self.grid.text_rows.append([])
-        self.grid.headers.append([])
+        self.grid.header_flags.append([])
         self.grid.nodes.append([])
 
     def _grow(self, y: int) -> None:
@@ -333,12 +211,12 @@ class _GridBuilder:
         while len(self.grid.text_rows) <= y:
             self._add_row()
         for node, text, header, x, anchor_y, width in self.growing:
-            self._claim(node, text, header, x, anchor_y, width, y, True)
+            self._claim(node, text, header, x, anchor_y, width, y)
 
     def _process_row(self, y: int, cells: list[LexborNode], group_end: int) -> None:
         grid = self.grid
-        texts, headers, nodes = grid.text_rows[y], grid.headers[y], grid.nodes[y]
-        assert headers is not None and nodes is not None  # careful rows keep both
+        texts, header_flags, nodes = grid.text_rows[y], grid.header_flags[y], grid.nodes[y]
+        assert header_flags is not None and nodes is not None  # careful rows keep both
         x = 0
         for node in cells:
             while x < len(nodes) and nodes[x] is not None:
@@ -346,7 +224,7 @@ class _GridBuilder:
             width = height = 1
             grows = False
             mem_id = node.mem_id
-            if mem_id in self.spanning:
+            if mem_id in self.spanning_ids:
                 attributes = node.attributes
                 width = parse_span(attributes.get("colspan"), 1, 1, MAX_COLSPAN)
                 rowspan = parse_span(attributes.get("rowspan"), 1, 0, MAX_ROWSPAN)
@@ -354,7 +232,7 @@ class _GridBuilder:
                 # cut at that end (our one departure, see the module docstring).
                 grows = rowspan == 0
                 height = group_end - y if grows else min(rowspan, group_end - y)
-            if mem_id in self.complex:
+            if mem_id in self.careful_text_ids:
                 text = cell_text(node, drop_hidden=self.drop_hidden)
             else:
                 text = " ".join(node.text_lexbor().split())
@@ -363,10 +241,10 @@ class _GridBuilder:
                 # The common cell, claimed inline: this loop runs once per cell.
                 if x == len(nodes):
                     texts.append(text)
-                    headers.append(header)
+                    header_flags.append(header)
                     nodes.append(node)
                 elif nodes[x] is None:  # a gap left by a wider cell overlapping this row
-                    texts[x], headers[x], nodes[x] = text, header, node
+                    texts[x], header_flags[x], nodes[x] = text, header, node
                 else:
                     grid.overlaps.append((x, y))
                 x += 1
@@ -375,7 +253,7 @@ class _GridBuilder:
                 continue
             grid.spans[(x, y)] = (width, height)
             for row_y in range(y, y + (1 if grows else height)):
-                self._claim(node, text, header, x, y, width, row_y, True)
+                self._claim(node, text, header, x, y, width, row_y)
             if grows and height > 1:
                 self.growing.append((node, text, header, x, y, width))
             x += width
@@ -391,19 +269,22 @@ class _GridBuilder:
         anchor_y: int,
         width: int,
         row_y: int,
-        spanning: bool,
     ) -> None:
         """Let the cell anchored at (x, anchor_y) cover its slots in row ``row_y``."""
         grid = self.grid
         while len(grid.text_rows) <= row_y:
             self._add_row()
         end = x + width
-        texts, headers, nodes = grid.text_rows[row_y], grid.headers[row_y], grid.nodes[row_y]
-        assert headers is not None and nodes is not None  # rows with spans are careful rows
+        texts, header_flags, nodes = (
+            grid.text_rows[row_y],
+            grid.header_flags[row_y],
+            grid.nodes[row_y],
+        )
+        assert header_flags is not None and nodes is not None  # rows with spans are careful rows
         missing = end - len(nodes)
         if missing > 0:
             texts.extend([""] * missing)
-            headers.extend([False] * missing)
+            header_flags.extend([False] * missing)
             nodes.extend([None] * missing)
         for slot_x in range(x, end):
             if nodes[slot_x] is not None:
@@ -412,7 +293,6 @@ class _GridBuilder:
                 grid.overlaps.append((slot_x, row_y))
                 continue
             texts[slot_x] = text
-            headers[slot_x] = header
+            header_flags[slot_x] = header
             nodes[slot_x] = node
-            if spanning:
-                grid.owners[(slot_x, row_y)] = (x, anchor_y)
+            grid.owners[(slot_x, row_y)] = (x, anchor_y)

@@ -13,7 +13,7 @@ import unicodedata
 from collections.abc import Sequence
 
 from harvester.errors import ExtractError
-from harvester.extract.grid import Grid
+from harvester.extract.grid_model import Grid
 
 __all__ = [
     "collapse_headers",

@@ -16,9 +16,10 @@ from selectolax.lexbor import LexborHTMLParser, LexborNode, SelectolaxError
 
 from harvester.errors import ExtractError, TableNotFoundError
 
-__all__ = ["COMMENT_MARK", "LocatedTable", "Page", "describe_candidates", "locate_table"]
+__all__ = ["FROM_COMMENT_ATTRIBUTE", "LocatedTable", "Page", "describe_candidates", "locate_table"]
 
-COMMENT_MARK = "data-harvester-from-comment"
+# Set on each table that came from a comment, in the second parse, to tell it from page tables.
+FROM_COMMENT_ATTRIBUTE = "data-harvester-from-comment"
 _COMMENT_WITH_TABLE = re.compile(r"<!--((?:(?!-->).)*?<table\b(?:(?!-->).)*?)-->", re.S | re.I)
 _TABLE_TAG = re.compile(r"<table\b", re.I)
 # The same two patterns for pages kept as UTF-8 bytes (the markup they look for is ASCII).
@@ -71,13 +72,13 @@ class Page:
         found = [
             LocatedTable(node, 0, False)
             for node in _tables_for(self.document, select, self.source)
-            if COMMENT_MARK not in node.attributes
+            if FROM_COMMENT_ATTRIBUTE not in node.attributes
         ]
         if self.uncommented is not None:
             found += [
                 LocatedTable(node, 0, True)
                 for node in _tables_for(self.uncommented, select, self.source)
-                if COMMENT_MARK in node.attributes
+                if FROM_COMMENT_ATTRIBUTE in node.attributes
             ]
         return [LocatedTable(t.node, i, t.in_comment) for i, t in enumerate(found)]
 
@@ -87,11 +88,11 @@ class Page:
 
 
 def _open_comment(match: re.Match[str]) -> str:
-    return _TABLE_TAG.sub(f"<table {COMMENT_MARK}", match.group(1))
+    return _TABLE_TAG.sub(f"<table {FROM_COMMENT_ATTRIBUTE}", match.group(1))
 
 
 def _open_comment_bytes(match: re.Match[bytes]) -> bytes:
-    return _TABLE_TAG_BYTES.sub(f"<table {COMMENT_MARK}".encode(), match.group(1))
+    return _TABLE_TAG_BYTES.sub(f"<table {FROM_COMMENT_ATTRIBUTE}".encode(), match.group(1))
 
 
 def _tables_for(document: LexborHTMLParser, select: str, source: str) -> list[LexborNode]:

@@ -54,24 +54,24 @@ _ISO_COLUMN = re.compile(r"[0-9]{4}-[0-9]{2}-[0-9]{2}(?:\0[0-9]{4}-[0-9]{2}-[0-9
 _MM_SS_COLUMN = re.compile(r"[0-9]+:[0-5][0-9](?:\0[0-9]+:[0-5][0-9])*")
 # Seconds always < 60; minutes may run past 59 only when there is no hour part.
 _DURATION = re.compile(
-    r"(?:(?P<h>[0-9]+):(?P<hm>[0-5][0-9])|(?P<m>[0-9]+)):(?P<s>[0-5][0-9])"
-    r"(?:(?P<dm>[.,])(?P<frac>[0-9]+))?"
+    r"(?:(?P<hours>[0-9]+):(?P<minutes_past>[0-5][0-9])|(?P<minutes>[0-9]+))"
+    r":(?P<seconds>[0-5][0-9])(?:(?P<decimal_mark>[.,])(?P<fraction>[0-9]+))?"
 )
 _FLOAT, _INT = pa.float64(), pa.int64()
 ARROW_TYPES = dict(text=pa.string(), integer=_INT, decimal=_FLOAT, currency=_FLOAT)
 ARROW_TYPES.update(percent=_FLOAT, date=pa.date32(), duration=_INT, boolean=pa.bool_())
 
 
-def _forms(mark: str, infer: bool, n: str) -> dict[str, str]:
-    """Regex source per numeric kind; ``n`` names the separator group so copies can coexist."""
-    seps = re.escape(("," if mark == "." else ".") + _GROUP_SPACES)
-    sign, dm, bare = f"[+{re.escape(MINUS_SIGNS)}]", "\\" + mark, "" if infer else "?"
+def _forms(decimal_mark: str, infer: bool, group: str) -> dict[str, str]:
+    """Regex source per numeric kind; ``group`` names the separator group so copies coexist."""
+    seps = re.escape(("," if decimal_mark == "." else ".") + _GROUP_SPACES)
+    sign, decimal, bare = f"[+{re.escape(MINUS_SIGNS)}]", "\\" + decimal_mark, "" if infer else "?"
     # Grouped digits come in threes with one separator throughout, so "1,25" is no integer;
     # inference refuses leading zeros, as "007" is an identifier, not seven (both: common
     # practice, no published source).
-    grouped = rf"(?:(?P<{n}>[{seps}])[0-9]{{3}}(?:(?P={n})[0-9]{{3}})*|[0-9]*)"
+    grouped = rf"(?:(?P<{group}>[{seps}])[0-9]{{3}}(?:(?P={group})[0-9]{{3}})*|[0-9]*)"
     digits = rf"(?:0|[1-9][0-9]{{0,2}}{grouped})" if infer else rf"[0-9]{{1,3}}{grouped}"
-    unsigned = rf"(?:{digits}(?:{dm}[0-9]+)?|{dm}[0-9]+)"
+    unsigned = rf"(?:{digits}(?:{decimal}[0-9]+)?|{decimal}[0-9]+)"
     # A declared percent or currency column also takes bare numbers ("0" for no money).
     symbol = rf"(?:[$€£¥][{_GROUP_SPACES}]?|[A-Z]{{3}}[ \u00a0]){bare}"
     return {
@@ -84,29 +84,30 @@ def _forms(mark: str, infer: bool, n: str) -> dict[str, str]:
 
 
 @cache
-def _pattern(mark: str, kind: str, infer: bool) -> re.Pattern[str]:
+def _pattern(decimal_mark: str, kind: str, infer: bool) -> re.Pattern[str]:
     """One pattern matching a whole column joined by NUL: one C-level call checks every cell."""
     if kind == "multiplied":
-        return re.compile(_forms(mark, infer, "a")[kind])
+        return re.compile(_forms(decimal_mark, infer, "a")[kind])
     # Atomic groups that must end at a cell boundary: once a cell has matched, a later cell's
     # failure cannot send the engine back through every way of splitting earlier digits.
-    first, rest = _forms(mark, infer, "a")[kind], _forms(mark, infer, "b")[kind]
+    first, rest = _forms(decimal_mark, infer, "a")[kind], _forms(decimal_mark, infer, "b")[kind]
     return re.compile(rf"(?>{first}(?=\0|\Z))(?:\0(?>{rest}(?=\0|\Z)))*")
 
 
-def _replacements(mark: str) -> tuple[tuple[str, str], ...]:
+def _replacements(decimal_mark: str) -> tuple[tuple[str, str], ...]:
     """What turns matched texts into what int() and float() read: signs, separators, symbols."""
-    drop = ("," if mark == "." else ".") + _GROUP_SPACES + "+%$€£¥ABCDEFGHIJKLMNOPQRSTUVWXYZ"
+    group_separator = "," if decimal_mark == "." else "."
+    drop = group_separator + _GROUP_SPACES + "+%$€£¥ABCDEFGHIJKLMNOPQRSTUVWXYZ"
     minus = tuple((c, "-") for c in MINUS_SIGNS[1:])
-    return (*((c, "") for c in drop), *minus, (mark, "."))
+    return (*((c, "") for c in drop), *minus, (decimal_mark, "."))
 
 
 _REPLACEMENTS = {".": _replacements("."), ",": _replacements(",")}
 
 
-def _plain(text: str, mark: str) -> str:
+def _plain(text: str, decimal_mark: str) -> str:
     # A few str.replace calls beat str.translate, which is slow once the text is not ASCII.
-    for old, new in _REPLACEMENTS[mark]:
+    for old, new in _REPLACEMENTS[decimal_mark]:
         if old in text:
             text = text.replace(old, new)
     return text
@@ -116,7 +117,7 @@ def _plain(text: str, mark: str) -> str:
 class ParseContext:
     """How to parse: the decimal mark, inference or declared, date formats."""
 
-    mark: str
+    decimal_mark: str
     infer: bool
     formats: tuple[str, ...] = ()
 
@@ -152,45 +153,47 @@ def _numbers(kind: str, cells: list[str], ctx: ParseContext) -> _Result:
     joined = "\0".join(cells)
     if kind == "integer" and _plain_digits(cells, joined, ctx.infer):
         return list(map(int, cells)), -1
-    pattern = _pattern(ctx.mark, kind, ctx.infer)
+    pattern = _pattern(ctx.decimal_mark, kind, ctx.infer)
     if pattern.fullmatch(joined) is None:
         if kind == "currency":  # multipliers need a look at each cell
-            multiplied = _pattern(ctx.mark, "multiplied", ctx.infer)
-            return _each(cells, lambda c: _currency(c, multiplied, ctx.mark))
+            multiplied = _pattern(ctx.decimal_mark, "multiplied", ctx.infer)
+            return _each(cells, lambda c: _currency(c, multiplied, ctx.decimal_mark))
         if ctx.infer:  # inference only needs to know that some cell failed
             return None, -1
         return None, next(i for i, c in enumerate(cells) if not pattern.fullmatch(c))
     convert: Callable[[str], Any] = int if kind == "integer" else float
-    return list(map(convert, _plain(joined, ctx.mark).split("\0"))), -1
+    return list(map(convert, _plain(joined, ctx.decimal_mark).split("\0"))), -1
 
 
-def _currency(text: str, pattern: re.Pattern[str], mark: str) -> float | None:
-    m = pattern.fullmatch(text)
-    if m is None or (m["pre"] and m["num"][0] in _SIGNS):
+def _currency(text: str, pattern: re.Pattern[str], decimal_mark: str) -> float | None:
+    match = pattern.fullmatch(text)
+    if match is None or (match["pre"] and match["num"][0] in _SIGNS):
         return None
-    number, mult = _plain(m["num"], mark), m["mult"]
+    number, multiplier = _plain(match["num"], decimal_mark), match["mult"]
     # Decimal keeps "1.2m" exactly 1,200,000 rather than 1.2 * 1e6 in binary.
-    value = float(Decimal(number) * _MULTIPLIERS[mult]) if mult else float(number)
-    return -value if m["pre"] and m["pre"] != "+" else value
+    value = float(Decimal(number) * _MULTIPLIERS[multiplier]) if multiplier else float(number)
+    return -value if match["pre"] and match["pre"] != "+" else value
 
 
-def _duration(text: str, mark: str) -> int | float | None:
-    m = _DURATION.fullmatch(text)
-    if m is None or (m["frac"] and m["dm"] != mark):
+def _duration(text: str, decimal_mark: str) -> int | float | None:
+    match = _DURATION.fullmatch(text)
+    if match is None or (match["fraction"] and match["decimal_mark"] != decimal_mark):
         return None
-    hours, minutes = (int(m["h"]), int(m["hm"])) if m["h"] is not None else (0, int(m["m"]))
-    whole = hours * 3600 + minutes * 60 + int(m["s"])
-    return whole if m["frac"] is None else float(f"{whole}.{m['frac']}")
+    if match["hours"] is not None:
+        hours, minutes = int(match["hours"]), int(match["minutes_past"])
+    else:
+        hours, minutes = 0, int(match["minutes"])
+    whole = hours * 3600 + minutes * 60 + int(match["seconds"])
+    return whole if match["fraction"] is None else float(f"{whole}.{match['fraction']}")
 
 
 def _durations(cells: list[str], ctx: ParseContext) -> _Result:
     joined = "\0".join(cells)
     if cells and _MM_SS_COLUMN.fullmatch(joined):
         parts = joined.replace(":", "\0").split("\0")
-        return [
-            m * 60 + s for m, s in zip(map(int, parts[::2]), map(int, parts[1::2]), strict=True)
-        ], -1
-    return _each(cells, lambda c: _duration(c, ctx.mark))
+        minutes, seconds = map(int, parts[::2]), map(int, parts[1::2])
+        return [minute * 60 + second for minute, second in zip(minutes, seconds, strict=True)], -1
+    return _each(cells, lambda c: _duration(c, ctx.decimal_mark))
 
 
 def _date(text: str, formats: Sequence[str]) -> date | None:

@@ -3,12 +3,19 @@
 The steps, each in its own module: locate (selector, comments) → grid (WHATWG table model) →
 headers (detect, collapse, rename) → row drops (repeated headers, group labels, empty rows, the
 rule's patterns) → values (typed columns, markers, links).
+
+:func:`extract_table` and :func:`extract_grid` each pause the cyclic garbage collector for the
+whole extraction, once, through the thread-aware guard in ``collector.py`` (nested and
+concurrent extractions share it, and the collector comes back on after the last one, raising
+or not): collection passes over the extraction's own live objects cost a fifth of its time on
+the benchmark page (BENCHMARKS.md).
 """
 
 from __future__ import annotations
 
 import codecs
 import re
+from bisect import bisect_right
 from collections.abc import Sequence
 from dataclasses import dataclass
 from urllib.parse import urljoin
@@ -16,8 +23,10 @@ from urllib.parse import urljoin
 import pyarrow as pa
 
 from harvester.errors import ExtractError
+from harvester.extract.collector import EXTRACTION_PAUSE
 from harvester.extract.decode import decode_html, sniff_encoding
-from harvester.extract.grid import Grid, build_grid
+from harvester.extract.grid import build_grid
+from harvester.extract.grid_model import Grid
 from harvester.extract.headers import (
     collapse_headers,
     deduplicate,
@@ -48,7 +57,7 @@ class ExtractedTable:
 
 @dataclass
 class _Body:
-    rows: list[int]
+    source_rows: list[int]  # 0-based grid row (y) of each body row
     texts: list[tuple[str, ...]]
     groups: list[str | None]
 
@@ -80,8 +89,9 @@ def extract_grid(
     source: str = "<page>",
 ) -> list[list[str]]:
     """The span-expanded grid of the table ``select`` names: every slot's text, row by row."""
-    located = locate_table(_as_page(page, source), select, index)
-    return build_grid(located.node, drop_hidden=drop_hidden).texts()
+    with EXTRACTION_PAUSE:
+        located = locate_table(_as_page(page, source), select, index)
+        return build_grid(located.node, drop_hidden=drop_hidden).texts()
 
 
 def extract_table(
@@ -95,37 +105,23 @@ def extract_table(
 
     ``base_url`` resolves relative link targets kept by ``link_of`` columns.
     """
-    rule = rule or TableRule()
-    page = _as_page(page, source)
+    with EXTRACTION_PAUSE:
+        return _extract_table(_as_page(page, source), rule or TableRule(), base_url)
+
+
+def _extract_table(page: Page, rule: TableRule, base_url: str | None) -> ExtractedTable:
+    """:func:`extract_table` without the collector pause (the benchmark times both)."""
     located = locate_table(page, rule.select, rule.index)
     where = f"{page.source}: table {rule.name!r} ({rule.select})"
     grid = build_grid(located.node, drop_hidden=rule.hidden == "drop")
-    header_rows = header_row_indices(grid, rule.header_rows)
-    names = deduplicate(collapse_headers(grid, header_rows, rule.header_separator))
+    header_indices = header_row_indices(grid, rule.header_rows)
+    names = deduplicate(collapse_headers(grid, header_indices, rule.header_separator))
     names = rename_columns(names, rule.rename, where)
     _check_column_rules(rule, names, where)
 
-    body = _body_rows(grid, header_rows, rule)
+    body = _read_body(grid, header_indices, rule)
     body = _apply_row_drops(body, names, rule, where)
-    columns: list[pa.Array] = []
-    column_names: list[str] = []
-    if rule.group_rows == "column" and any(group is not None for group in body.groups):
-        columns.append(pa.array(body.groups, type=pa.string()))
-        column_names.append(rule.group_column)
-    row_numbers = [y + 1 for y in body.rows]
-    for x, name in enumerate(names):
-        texts = [row[x] for row in body.texts]
-        typed = convert_column(name, texts, rule.column(name), rule, row_numbers)
-        columns.append(typed.values)
-        column_names.append(name)
-        own = rule.column(name)
-        if typed.markers is not None and own is not None and own.markers_to:
-            columns.append(typed.markers)
-            column_names.append(own.markers_to)
-        for derived in rule.columns:
-            if derived.link_of == name:
-                columns.append(_links(grid, body.rows, x, derived, base_url))
-                column_names.append(derived.name)
+    columns, column_names = _columns(grid, header_indices, body, names, rule, base_url)
     missing_keys = [key for key in rule.key if key not in column_names]
     if missing_keys:
         raise ExtractError(
@@ -135,13 +131,46 @@ def extract_table(
     return ExtractedTable(
         name=rule.name,
         table=pa.Table.from_arrays(columns, names=column_names),
-        source_rows=tuple(body.rows),
+        source_rows=tuple(body.source_rows),
         selector=rule.select,
         index=located.index,
         in_comment=located.in_comment,
         caption=grid.caption,
         overlaps=len(grid.overlaps),
     )
+
+
+def _columns(
+    grid: Grid,
+    header_indices: Sequence[int],
+    body: _Body,
+    names: Sequence[str],
+    rule: TableRule,
+    base_url: str | None,
+) -> tuple[list[pa.Array], list[str]]:
+    """The output columns and their names: group labels, typed columns, markers and links."""
+    columns: list[pa.Array] = []
+    column_names: list[str] = []
+    if rule.group_rows == "column" and any(group is not None for group in body.groups):
+        columns.append(pa.array(body.groups, type=pa.string()))
+        column_names.append(rule.group_column)
+    body_rows, grid_rows = _row_numbers(body.source_rows, header_indices)
+    for x, name in enumerate(names):
+        texts = [row[x] for row in body.texts]
+        column_rule = rule.column(name)
+        typed = convert_column(
+            name, texts, column_rule, rule, body_rows=body_rows, grid_rows=grid_rows
+        )
+        columns.append(typed.values)
+        column_names.append(name)
+        if typed.markers is not None and column_rule is not None and column_rule.markers_to:
+            columns.append(typed.markers)
+            column_names.append(column_rule.markers_to)
+        for derived in rule.columns:
+            if derived.link_of == name:
+                columns.append(_links(grid, body.source_rows, x, derived, base_url))
+                column_names.append(derived.name)
+    return columns, column_names
 
 
 def _check_column_rules(rule: TableRule, names: Sequence[str], where: str) -> None:
@@ -172,9 +201,10 @@ def _check_column_rules(rule: TableRule, names: Sequence[str], where: str) -> No
         )
 
 
-def _body_rows(grid: Grid, header_rows: Sequence[int], rule: TableRule) -> _Body:
-    header_set = set(header_rows)
-    header_texts = {grid.row_texts(y) for y in header_rows} if rule.drop_repeated_headers else set()
+def _read_body(grid: Grid, header_indices: Sequence[int], rule: TableRule) -> _Body:
+    header_set = set(header_indices)
+    repeated = rule.drop_repeated_headers
+    header_texts = {grid.row_texts(y) for y in header_indices} if repeated else set()
     body = _Body([], [], [])
     group: str | None = None
     for y in range(grid.height):
@@ -188,10 +218,24 @@ def _body_rows(grid: Grid, header_rows: Sequence[int], rule: TableRule) -> _Body
             continue
         if rule.drop_empty_rows and not any(texts):
             continue
-        body.rows.append(y)
+        body.source_rows.append(y)
         body.texts.append(texts)
         body.groups.append(group)
     return body
+
+
+def _row_numbers(
+    source_rows: Sequence[int], header_indices: Sequence[int]
+) -> tuple[list[int], list[int]]:
+    """Each of the grid rows ``source_rows`` numbered from 1 in the table body, and in the grid.
+
+    The body count runs over every grid row that is not a header row, rows dropped later
+    included, so the first row under the header is row 1 of the body whatever is dropped.
+    Grid rows follow the table model's order, which puts every ``tfoot`` last.
+    """
+    headers = sorted(header_indices)
+    body_rows = [y + 1 - bisect_right(headers, y) for y in source_rows]
+    return body_rows, [y + 1 for y in source_rows]
 
 
 def _apply_row_drops(body: _Body, names: Sequence[str], rule: TableRule, where: str) -> _Body:
@@ -206,21 +250,22 @@ def _apply_row_drops(body: _Body, names: Sequence[str], rule: TableRule, where: 
             )
         tests.append((names.index(drop.column), re.compile(drop.matches)))
     kept = _Body([], [], [])
-    for y, texts, group in zip(body.rows, body.texts, body.groups, strict=True):
+    for y, texts, group in zip(body.source_rows, body.texts, body.groups, strict=True):
         if any(pattern.fullmatch(texts[x]) for x, pattern in tests):
             continue
-        kept.rows.append(y)
+        kept.source_rows.append(y)
         kept.texts.append(texts)
         kept.groups.append(group)
     return kept
 
 
 def _links(
-    grid: Grid, rows: Sequence[int], x: int, rule: ColumnRule, base_url: str | None
+    grid: Grid, source_rows: Sequence[int], x: int, link_rule: ColumnRule, base_url: str | None
 ) -> pa.Array:
-    pattern = re.compile(rule.pattern) if rule.pattern else None
+    """The ``link_of`` column ``link_rule`` derives from column ``x``: one link per body row."""
+    pattern = re.compile(link_rule.pattern) if link_rule.pattern else None
     values: list[str | None] = []
-    for y in rows:
+    for y in source_rows:
         href = grid.link(x, y)
         if href is not None and base_url:
             href = urljoin(base_url, href)

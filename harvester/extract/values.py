@@ -79,7 +79,11 @@ class TypedColumn:
 
 
 def _prepare(texts: Sequence[str], markers: str) -> tuple[list[str], list[str | None] | None]:
-    """Stripped cell texts with trailing markers removed, and the markers per cell if any."""
+    """Stripped cell texts with trailing markers removed, and the markers split off each cell.
+
+    ``markers`` holds the marker characters (``TableRule.markers``). The second result is None
+    when no cell ends in one.
+    """
     cores = list(map(str.strip, texts))
     joined = "\0".join(cores) + "\0"
     # Parsers join a column with NUL, so a NUL inside a cell becomes U+FFFD REPLACEMENT CHARACTER.
@@ -87,18 +91,18 @@ def _prepare(texts: Sequence[str], markers: str) -> tuple[list[str], list[str | 
         cores = [c.replace("\0", "\ufffd") for c in cores]
         joined = "\0".join(cores) + "\0"
     # Whole-column checks in C first: most columns have no cell ending in a marker at all.
-    if not any(m + "\0" in joined for m in markers):
+    if not any(marker + "\0" in joined for marker in markers):
         return cores, None
     hits = list(compress(range(len(cores)), map(str.endswith, cores, repeat(tuple(markers)))))
-    marks: list[str | None] = [None] * len(cores)
+    markers_split_off: list[str | None] = [None] * len(cores)
     for i in hits:
-        cores[i], marks[i] = split_markers(cores[i], markers)
-    return cores, marks
+        cores[i], markers_split_off[i] = split_markers(cores[i], markers)
+    return cores, markers_split_off
 
 
-def _infer(cells: list[str], mark: str) -> tuple[ColumnType, list[Any]]:
+def _infer(cells: list[str], decimal_mark: str) -> tuple[ColumnType, list[Any]]:
     if cells:
-        ctx = ParseContext(mark, infer=True)
+        ctx = ParseContext(decimal_mark, infer=True)
         for kind in INFER_ORDER:
             values, _ = PARSERS[kind](cells, ctx)
             if values is not None:
@@ -116,107 +120,152 @@ def infer_type(texts: Sequence[str], table: TableRule) -> ColumnType:
     return _infer([c for c in cores if c not in nulls], table.decimal_mark)[0]
 
 
+def convert_column(
+    name: str,
+    texts: Sequence[str],
+    rule: ColumnRule | None,
+    table: TableRule,
+    *,
+    body_rows: Sequence[int] | None = None,
+    grid_rows: Sequence[int] | None = None,
+) -> TypedColumn:
+    """Convert one column's cell texts to a typed array, by its rule or by inference.
+
+    Raises ValueParseError when a cell does not parse as a declared type, naming the cell's row.
+    ``body_rows`` numbers each cell's row of the table body from 1, counting every grid row that
+    is not a header row, dropped ones too (repeated headers, group labels, empty rows): the
+    first row under the header is row 1, as a reader counts on the page. The default 1, 2, 3, …
+    fits cells that are the whole body. ``grid_rows``, when given, numbers each cell's row of
+    the whole grid from 1, header rows included, and the message names that row too.
+    """
+    rows = _CellRows.checked(name, len(texts), body_rows, grid_rows)
+    keep_markers = rule is not None and rule.markers_to is not None
+    if rule is not None and rule.type == "boolean":
+        return _boolean_column(name, texts, rule, table, rows)
+
+    cores, markers_split_off = _prepare(texts, table.markers)
+    markers_column = None
+    if keep_markers:
+        markers_column = _strings(markers_split_off or [None] * len(cores))
+    positions = _non_null_positions(cores, table.nulls)
+    cells = cores if positions is None else [cores[i] for i in positions]
+
+    declared = rule.type if rule is not None else None
+    kind: ColumnType
+    if declared is None and table.infer_types:
+        kind, values = _infer(cells, table.decimal_mark)
+    elif declared is None or declared == "text":
+        kind, values = "text", cells
+    else:
+        kind = declared
+        formats = rule.formats if rule is not None else ()
+        parsed, bad, hint = _parse_declared(kind, cells, table.decimal_mark, formats)
+        if parsed is None:
+            at = positions[bad] if positions is not None else bad
+            raise _fail(name, texts[at], kind, rows.describe(at), hint)
+        values = parsed
+    return TypedColumn(name, _array(kind, values, positions, len(cores)), kind, markers_column)
+
+
+@dataclass(frozen=True)
+class _CellRows:
+    """Where a column's cells sit, for error messages: rows of the body and, if known, the grid."""
+
+    body: Sequence[int]
+    grid: Sequence[int] | None
+
+    @classmethod
+    def checked(
+        cls, name: str, count: int, body: Sequence[int] | None, grid: Sequence[int] | None
+    ) -> _CellRows:
+        """The row numbers of ``count`` cells, the body rows 1, 2, 3, … unless given."""
+        for numbers, what in ((body, "body row numbers"), (grid, "grid row numbers")):
+            if numbers is not None and len(numbers) != count:
+                raise ValueError(f"column {name!r}: {count} cells but {len(numbers)} {what}")
+        return cls(body if body is not None else range(1, count + 1), grid)
+
+    def describe(self, i: int) -> str:
+        """Where cell ``i`` sits, e.g. ``row 3 of the table body (grid row 5)``."""
+        where = f"row {self.body[i]} of the table body"
+        return where if self.grid is None else f"{where} (grid row {self.grid[i]})"
+
+
+_HINT = 'declare type = "text" or add the text to nulls'
+_BOOLEAN_HINT = "add it to true_values, " + _HINT
+_DATE_HINT = "add its format to formats, " + _HINT
+_PAST_64_BITS_HINT = 'it is past 64 bits; declare type = "decimal" or "text"'
+
+
+def _boolean_column(
+    name: str, texts: Sequence[str], rule: ColumnRule, table: TableRule, rows: _CellRows
+) -> TypedColumn:
+    """A declared boolean column: true values, empty cells (false) and nulls; markers if asked."""
+    true_values = frozenset(rule.true_values or DEFAULT_TRUE_VALUES)
+    nulls = frozenset(table.nulls)
+    values: list[bool | None] = []
+    markers_split_off: list[str | None] = []
+    for i, raw in enumerate(texts):
+        text = raw.strip()
+        # Checked before marker stripping: "*" is both a default marker and a default true.
+        if text in true_values or not text:
+            values.append(bool(text))
+            markers_split_off.append(None)
+            continue
+        core, split_off = split_markers(text, table.markers)
+        if core in true_values or core in nulls:
+            values.append(True if core in true_values else None)
+            markers_split_off.append(split_off or None)
+            continue
+        raise _fail(name, raw, "boolean", rows.describe(i), _BOOLEAN_HINT)
+    markers_column = _strings(markers_split_off) if rule.markers_to is not None else None
+    return TypedColumn(name, pa.array(values, type=pa.bool_()), "boolean", markers_column)
+
+
+def _non_null_positions(cores: list[str], nulls: Sequence[str]) -> list[int] | None:
+    """Where the cells that are not null texts sit, or None if no cell is a null text."""
+    null_texts = frozenset(nulls)
+    if null_texts.isdisjoint(cores):
+        return None  # the usual column: no list of positions to build or to map back through
+    return [i for i, core in enumerate(cores) if core not in null_texts]
+
+
+def _parse_declared(
+    kind: ColumnType, cells: list[str], decimal_mark: str, formats: tuple[str, ...]
+) -> tuple[list[Any] | None, int, str]:
+    """The cells parsed as the declared ``kind``; or None, the first bad cell and a hint."""
+    parsed, bad = PARSERS[kind](cells, ParseContext(decimal_mark, infer=False, formats=formats))
+    if parsed is not None and kind == "integer" and not fits_int64(parsed):
+        bad = next(i for i, value in enumerate(parsed) if not fits_int64([value]))
+        return None, bad, _PAST_64_BITS_HINT
+    if parsed is None:
+        return None, bad, _DATE_HINT if kind == "date" else _HINT
+    return parsed, bad, ""
+
+
+def _array(
+    kind: ColumnType, values: list[Any], positions: list[int] | None, length: int
+) -> pa.Array:
+    """The column's Arrow array: ``values`` put back at ``positions``, null everywhere else."""
+    arrow_type = ARROW_TYPES[kind]
+    if kind == "duration" and any(type(value) is float for value in values):
+        # One cell with fractional seconds makes the whole column float seconds.
+        arrow_type = pa.float64()
+        values = [float(value) for value in values]
+    if positions is not None:
+        full: list[Any] = [None] * length
+        for at, value in zip(positions, values, strict=True):
+            full[at] = value
+        values = full
+    return _strings(values) if kind == "text" else pa.array(values, type=arrow_type)
+
+
 def _strings(values: list[Any]) -> pa.Array:
     # from_pandas=True takes pyarrow's faster conversion path for str lists (~8x here);
     # it only changes how float NaN is read, and these lists hold str and None only.
     return pa.array(values, type=pa.string(), from_pandas=True)
 
 
-def _fail(name: str, text: str, kind: str, row: int, hint: str = "") -> ValueParseError:
+def _fail(name: str, text: str, kind: str, where: str, hint: str) -> ValueParseError:
     return ValueParseError(
-        f"column {name!r}, body row {row}: cannot read {text!r} as declared type {kind!r}",
-        hint=hint or 'declare type = "text" or add the text to nulls',
+        f"column {name!r}, {where}: cannot read {text!r} as declared type {kind!r}", hint=hint
     )
-
-
-def _booleans(
-    name: str, texts: Sequence[str], rule: ColumnRule, table: TableRule, rows: Sequence[int]
-) -> tuple[list[bool | None], list[str | None]]:
-    true_values = frozenset(rule.true_values or DEFAULT_TRUE_VALUES)
-    nulls = frozenset(table.nulls)
-    values: list[bool | None] = []
-    marks: list[str | None] = []
-    for i, raw in enumerate(texts):
-        text = raw.strip()
-        # Checked before marker stripping: "*" is both a default marker and a default true.
-        if text in true_values or not text:
-            values.append(bool(text))
-            marks.append(None)
-            continue
-        core, mark = split_markers(text, table.markers)
-        if core in true_values or core in nulls:
-            values.append(True if core in true_values else None)
-            marks.append(mark or None)
-            continue
-        hint = 'add it to true_values, declare type = "text" or add the text to nulls'
-        raise _fail(name, raw, "boolean", rows[i], hint)
-    return values, marks
-
-
-def convert_column(
-    name: str,
-    texts: Sequence[str],
-    rule: ColumnRule | None,
-    table: TableRule,
-    row_numbers: Sequence[int] | None = None,
-) -> TypedColumn:
-    """Convert one column's cell texts to a typed array, by its rule or by inference.
-
-    ``row_numbers`` gives the 1-based body row of each cell for error messages (default
-    1, 2, 3, ...). Raises ValueParseError when a cell does not parse as a declared type.
-    """
-    rows = row_numbers if row_numbers is not None else range(1, len(texts) + 1)
-    if len(rows) != len(texts):
-        raise ValueError(f"column {name!r}: {len(texts)} cells but {len(rows)} row numbers")
-    declared = rule.type if rule is not None else None
-    want_marks = rule is not None and rule.markers_to is not None
-    mark = table.decimal_mark
-
-    if declared == "boolean":
-        assert rule is not None
-        flags, bool_marks = _booleans(name, texts, rule, table, rows)
-        marks_array = _strings(bool_marks) if want_marks else None
-        return TypedColumn(name, pa.array(flags, type=pa.bool_()), "boolean", marks_array)
-
-    cores, marks = _prepare(texts, table.markers)
-    marks_array = None
-    if want_marks:
-        marks_array = _strings(marks or [None] * len(cores))
-    nulls = frozenset(table.nulls)
-    positions: list[int] | None = None
-    cells = cores
-    if not nulls.isdisjoint(cores):
-        positions = [i for i, c in enumerate(cores) if c not in nulls]
-        cells = [cores[i] for i in positions]
-
-    kind: ColumnType
-    if declared is None and table.infer_types:
-        kind, values = _infer(cells, mark)
-    elif declared is None or declared == "text":
-        kind, values = "text", cells
-    else:
-        kind = declared
-        formats = rule.formats if rule is not None else ()
-        parsed, bad = PARSERS[kind](cells, ParseContext(mark, infer=False, formats=formats))
-        hint = ""
-        if parsed is not None and kind == "integer" and not fits_int64(parsed):
-            bad = next(i for i, v in enumerate(parsed) if not fits_int64([v]))
-            parsed, hint = None, 'it is past 64 bits; declare type = "decimal" or "text"'
-        if parsed is None:
-            at = positions[bad] if positions is not None else bad
-            if kind == "date":
-                hint = 'add its format to formats, declare type = "text" or add the text to nulls'
-            raise _fail(name, texts[at], kind, rows[at], hint)
-        values = parsed
-
-    arrow_type = ARROW_TYPES[kind]
-    if kind == "duration" and any(type(v) is float for v in values):
-        arrow_type = pa.float64()
-        values = [float(v) for v in values]
-    if positions is not None:
-        full: list[Any] = [None] * len(cores)
-        for at, value in zip(positions, values, strict=True):
-            full[at] = value
-        values = full
-    array = _strings(values) if kind == "text" else pa.array(values, type=arrow_type)
-    return TypedColumn(name, array, kind, marks_array)

@@ -83,9 +83,76 @@ def test_declared_type_that_does_not_fit_names_column_row_and_text() -> None:
     rule = TableRule(columns=(ColumnRule(name="club", type="integer"),))
     with pytest.raises(ValueParseError) as caught:
         extract_table(ROSTER, rule)
-    message = str(caught.value)
-    assert "club" in message and "HRN" in message
-    assert "\n" not in message
+    # Grid rows from 1: 1 header, 2 "North Conference" (body row 1), 3 Lea Varn (body row 2).
+    assert caught.value.message == (
+        "column 'club', row 2 of the table body (grid row 3): "
+        "cannot read 'HRN' as declared type 'integer'"
+    )
+    assert "\n" not in str(caught.value)
+
+
+SHOOTING_HEAD = """
+<tr><th rowspan="2">Player</th><th colspan="2">Shooting</th></tr>
+<tr><th>Goals</th><th>Shots</th></tr>
+"""
+SHOOTING_BODY = """
+<tr><td colspan="3">North Conference</td></tr>
+<tr><td>Lea Varn</td><td>4</td><td>9</td></tr>
+<tr><td></td><td></td><td></td></tr>
+<tr><th>Player</th><th>Goals</th><th>Shots</th></tr>
+<tr><td>Osk Belund</td><td>two</td><td>5</td></tr>
+"""
+
+
+@pytest.mark.parametrize(
+    ("page", "header_rows"),
+    [
+        (f"<table><thead>{SHOOTING_HEAD}</thead><tbody>{SHOOTING_BODY}</tbody></table>", None),
+        (f"<table>{SHOOTING_HEAD}{SHOOTING_BODY}</table>", 2),
+    ],
+    ids=["thead", "header_rows=2"],
+)
+def test_error_rows_count_the_body_from_under_a_two_row_header(
+    page: str, header_rows: int | None
+) -> None:
+    # Grid rows from 1: 1-2 the header; 3 "North Conference", a group label (dropped), is row 1
+    # of the body; 4 Lea Varn is body row 2; 5 the empty row (dropped) body row 3; 6 the
+    # repeated header (dropped) body row 4; 7 Osk Belund, whose goals read "two", body row 5.
+    rule = TableRule(
+        header_rows=header_rows, columns=(ColumnRule(name="shooting_goals", type="integer"),)
+    )
+    with pytest.raises(ValueParseError) as caught:
+        extract_table(page, rule)
+    assert caught.value.message == (
+        "column 'shooting_goals', row 5 of the table body (grid row 7): "
+        "cannot read 'two' as declared type 'integer'"
+    )
+    kept = extract_table(page.replace("two", "2"), rule)
+    assert kept.table.column("shooting_goals").to_pylist() == [4, 2]
+    assert kept.source_rows == (3, 6)  # 0-based grid rows of Lea Varn and Osk Belund
+
+
+def test_error_rows_skip_a_header_that_comes_after_a_body_row() -> None:
+    # Table-model order: the bare tr (in an implied tbody) is grid row 1, the thead row grid row
+    # 2, the tbody rows grid rows 3 and 4. Every grid row that is not a header row counts in
+    # the body: grid rows 1, 3 and 4 are body rows 1, 2 and 3.
+    page = (
+        "<table><tr><td>one</td></tr><thead><tr><th>n</th></tr></thead>"
+        "<tbody><tr><td>2</td></tr><tr><td>x</td></tr></tbody></table>"
+    )
+    rule = TableRule(columns=(ColumnRule(name="n", type="integer"),))
+    with pytest.raises(ValueParseError) as caught:
+        extract_table(page, rule)
+    assert caught.value.message == (
+        "column 'n', row 1 of the table body (grid row 1): cannot read 'one' as declared type"
+        " 'integer'"
+    )
+    with pytest.raises(ValueParseError) as caught:
+        extract_table(page.replace("one", "1"), rule)
+    assert caught.value.message == (
+        "column 'n', row 3 of the table body (grid row 4): cannot read 'x' as declared type"
+        " 'integer'"
+    )
 
 
 def test_rule_for_a_column_the_table_lacks_lists_the_columns() -> None:

@@ -373,19 +373,40 @@ def test_declared_text_keeps_numbers_as_text() -> None:
     assert (col.type, py(col.values)) == ("text", ["28", "31"])
 
 
-def test_declared_type_error_names_column_row_text_type_and_fix() -> None:
+def test_declared_type_error_names_column_rows_text_type_and_fix() -> None:
     rule = ColumnRule("goals", type="integer")
     with pytest.raises(ValueParseError) as caught:
-        convert_column("goals", ["3", "—", "four", "5"], rule, TABLE, row_numbers=[10, 11, 12, 13])
-    message = str(caught.value)
-    assert "\n" not in message
-    for part in ("'goals'", "row 12", "'four'", "'integer'", 'declare type = "text"', "nulls"):
-        assert part in message
+        convert_column(
+            "goals",
+            ["3", "—", "four", "5"],
+            rule,
+            TABLE,
+            body_rows=[10, 11, 12, 13],
+            grid_rows=[12, 13, 14, 15],
+        )
+    # "four" is the third cell: body row 12, grid row 14.
+    assert str(caught.value) == (
+        "column 'goals', row 12 of the table body (grid row 14): cannot read 'four' as declared"
+        " type 'integer' — declare type = \"text\" or add the text to nulls"
+    )
 
 
 def test_declared_error_rows_default_to_one_based_positions() -> None:
-    with pytest.raises(ValueParseError, match="row 2:"):
+    with pytest.raises(ValueParseError) as caught:
         convert_column("d", ["2024-01-01", "1 Jan"], ColumnRule("d", type="date"), TABLE)
+    assert caught.value.message == (
+        "column 'd', row 2 of the table body: cannot read '1 Jan' as declared type 'date'"
+    )
+
+
+def test_declared_boolean_error_names_the_rows() -> None:
+    rule = ColumnRule("captain", type="boolean")
+    with pytest.raises(ValueParseError) as caught:
+        convert_column("captain", ["✓", "no"], rule, TABLE, body_rows=[4, 6], grid_rows=[5, 7])
+    assert caught.value.message == (
+        "column 'captain', row 6 of the table body (grid row 7): "
+        "cannot read 'no' as declared type 'boolean'"
+    )
 
 
 def test_declared_date_error_hints_at_formats() -> None:
@@ -430,5 +451,7 @@ def test_declared_currency_and_percent_take_bare_numbers() -> None:
 
 
 def test_row_numbers_must_match_the_cells() -> None:
-    with pytest.raises(ValueError, match="row numbers"):
-        convert_column("g", ["1", "2"], None, TABLE, row_numbers=[1])
+    with pytest.raises(ValueError, match="2 cells but 1 body row numbers"):
+        convert_column("g", ["1", "2"], None, TABLE, body_rows=[1])
+    with pytest.raises(ValueError, match="2 cells but 3 grid row numbers"):
+        convert_column("g", ["1", "2"], None, TABLE, grid_rows=[2, 3, 4])

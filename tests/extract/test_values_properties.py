@@ -179,7 +179,7 @@ def test_declared_integer_error_names_the_bad_row(
     texts.insert(bad, word)
     rows = list(range(first_row, first_row + len(texts)))
     with pytest.raises(ValueParseError) as caught:
-        convert_column("goals", texts, ColumnRule("goals", type="integer"), TABLE, rows)
+        convert_column("goals", texts, ColumnRule("goals", type="integer"), TABLE, body_rows=rows)
     message = str(caught.value)
-    assert f"body row {first_row + bad}:" in message
+    assert f", row {first_row + bad} of the table body: " in message
     assert repr(word) in message
