@@ -10,6 +10,7 @@ then run from a folder outside the checkout, so only the wheel's own files can s
 from __future__ import annotations
 
 import os
+import shutil
 import subprocess
 import sys
 import sysconfig
@@ -19,6 +20,7 @@ from pathlib import Path
 import pyarrow.parquet as pq
 
 ROOT = Path(__file__).resolve().parents[2]
+_NOT_SOURCE = (".git", ".venv", "build", "dist", "*.egg-info", "archive", ".*_cache", ".hypothesis")
 
 
 def _run(args: list[str], cwd: Path, env: dict[str, str]) -> str:
@@ -30,9 +32,13 @@ def _run(args: list[str], cwd: Path, env: dict[str, str]) -> str:
 def test_the_wheel_carries_the_demo_recipes_and_runs_the_demo(tmp_path: Path) -> None:
     env = {k: v for k, v in os.environ.items() if k not in ("PYTHONPATH", "HARVESTER_CONTACT")}
     env["HARVESTER_CONFIG"] = str(tmp_path / "no-config.toml")
+    # Built from a copy, so setuptools' build/ folder neither lands in the checkout nor brings
+    # stale files from an earlier build into this wheel.
+    source = tmp_path / "source"
+    shutil.copytree(ROOT, source, symlinks=True, ignore=shutil.ignore_patterns(*_NOT_SOURCE))
     wheels = tmp_path / "wheels"
     pip = [sys.executable, "-m", "pip", "--disable-pip-version-check"]
-    _run([*pip, "wheel", "--quiet", "--no-deps", "-w", str(wheels), str(ROOT)], tmp_path, env)
+    _run([*pip, "wheel", "--quiet", "--no-deps", "-w", str(wheels), str(source)], tmp_path, env)
     (wheel,) = wheels.glob("harvester-*.whl")
 
     fresh = tmp_path / "fresh-venv"
