@@ -15,7 +15,7 @@ __all__ = [
     "DEFAULT_ARCHIVE",
     "ArchiveOption",
     "ContactOption",
-    "SetOption",
+    "ParamOption",
     "TextFormat",
     "fail",
     "parse_assignments",
@@ -35,9 +35,11 @@ ContactOption = Annotated[
         "HARVESTER_CONTACT or the config file).",
     ),
 ]
-SetOption = Annotated[
+ParamOption = Annotated[
     list[str] | None,
-    typer.Option("--set", metavar="NAME=VALUE", help="Override site or a parameter."),
+    typer.Option(
+        "--param", metavar="NAME=VALUE", help="Set a parameter's value, or site, for this run."
+    ),
 ]
 
 

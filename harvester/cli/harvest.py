@@ -11,7 +11,7 @@ from harvester.cli.common import (
     DEFAULT_ARCHIVE,
     ArchiveOption,
     ContactOption,
-    SetOption,
+    ParamOption,
     TextFormat,
     fail,
     parse_assignments,
@@ -25,7 +25,7 @@ __all__ = ["harvest_command"]
 def harvest_command(
     recipe: Annotated[Path, typer.Argument(metavar="RECIPE", help="A recipe file (TOML).")],
     archive: ArchiveOption = DEFAULT_ARCHIVE,
-    set_values: SetOption = None,
+    param_values: ParamOption = None,
     every_value: Annotated[
         bool, typer.Option("--all", help="Every parameter value, not just the current one.")
     ] = False,
@@ -46,14 +46,14 @@ def harvest_command(
     when nothing changed. A table that fails is reported and touches nothing. Exit status 1 when
     any table failed or was refused.
 
-    Example: harvester harvest recipes/league-players.toml --set site=http://127.0.0.1:8650
+    Example: harvester harvest recipes/league-players.toml --param site=http://127.0.0.1:8650
     """
     from harvester.recipe import load_recipe
     from harvester.run import harvest
 
     if offline and refresh:
         usage("--offline and --refresh contradict each other — pick one")
-    overrides = parse_assignments(set_values, "--set", "season=2024")
+    overrides = parse_assignments(param_values, "--param", "season=2024")
     show = output_format is TextFormat.text
     try:
         report = harvest(

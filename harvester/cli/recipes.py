@@ -8,7 +8,7 @@ from typing import Annotated
 
 import typer
 
-from harvester.cli.common import SetOption, TextFormat, fail, parse_assignments
+from harvester.cli.common import ParamOption, TextFormat, fail, parse_assignments
 from harvester.errors import HarvesterError
 
 __all__ = ["check_command"]
@@ -19,7 +19,7 @@ def check_command(
     every_value: Annotated[
         bool, typer.Option("--all", help="Plan every parameter value, not just the current one.")
     ] = False,
-    set_values: SetOption = None,
+    param_values: ParamOption = None,
     output_format: Annotated[
         TextFormat, typer.Option("--format", "-f", help="text or json.")
     ] = TextFormat.text,
@@ -30,7 +30,7 @@ def check_command(
     """
     from harvester.recipe import load_recipe
 
-    overrides = parse_assignments(set_values, "--set", "season=2024")
+    overrides = parse_assignments(param_values, "--param", "season=2024")
     try:
         loaded = load_recipe(recipe, overrides)
         plan = loaded.plan(every_value=every_value)

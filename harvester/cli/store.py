@@ -93,7 +93,7 @@ def diff_command(
 
     Rows are matched by the key columns the harvest recorded; with none, whole rows are
     compared, so an edited row shows as removed and added. Text output: a header line, a
-    summary line, then "+ " added rows, "- " removed rows and "~ " changed rows with each
+    summary line, then one line per row led by a word: "added", "removed", or "changed" with each
     changed column's old → new value (values as JSON). A null partition value is written
     __HIVE_DEFAULT_PARTITION__.
 

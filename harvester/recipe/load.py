@@ -35,7 +35,7 @@ _REQUIRED = {"name": 'name = "league-players"', "site": 'site = "http://127.0.0.
 
 
 def load_recipe(path: str | Path, overrides: Mapping[str, str] | None = None) -> Recipe:
-    """Read and check the recipe at ``path``; ``overrides`` come from ``--set NAME=VALUE``.
+    """Read and check the recipe at ``path``; ``overrides`` come from ``--param NAME=VALUE``.
 
     ``site`` replaces the recipe's site; a parameter's name sets its current value.
     """
@@ -62,7 +62,7 @@ def load_recipe(path: str | Path, overrides: Mapping[str, str] | None = None) ->
     tables = _read_tables(data.get("tables"), where.at("tables"), fetch.url, names)
     store = _read_store(data.get("store", {}), where.at("store"), names, tables, fetch.url)
     site, parameters = _apply_overrides(overrides or {}, about["site"], parameters, singles, where)
-    _check_capture_near(fetch, parameters, tables, where)  # after --set: it uses current values
+    _check_capture_near(fetch, parameters, tables, where)  # after --param: it uses current values
     return Recipe(
         name=about["name"],
         path=Path(path),
@@ -214,11 +214,11 @@ def _apply_overrides(
     singles: frozenset[str],
     where: Where,
 ) -> tuple[str, tuple[Parameter, ...]]:
-    """The site and parameters after ``--set NAME=VALUE`` overrides."""
+    """The site and parameters after ``--param NAME=VALUE`` overrides."""
     settable = ["site", *(parameter.name for parameter in parameters)]
     by_name = {parameter.name: parameter for parameter in parameters}
     for name, raw in overrides.items():
-        at = Where(where.path, f"--set {name}", name)
+        at = Where(where.path, f"--param {name}", name)
         if name == "site":
             site = site_url(raw, at)
         elif name in by_name:

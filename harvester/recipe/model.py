@@ -90,7 +90,7 @@ class Recipe:
 
     name: str
     path: Path
-    sha256: str  # hex digest of the file's bytes (before any --set)
+    sha256: str  # hex digest of the file's bytes (before any --param)
     site: str
     contact: str | None
     description: str

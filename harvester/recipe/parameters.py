@@ -1,4 +1,4 @@
-"""Reads ``[parameters]``: recipe variables such as ``season``, and ``--set`` values for them.
+"""Reads ``[parameters]``: recipe variables such as ``season``, and ``--param`` values for them.
 
 A parameter is a from/to range, a list, or one value, with a current value used by default.
 """
@@ -107,7 +107,7 @@ def _parameter(name: str, value: object, where: Where) -> Parameter:
 
 
 def read_parameters(value: object, where: Where) -> tuple[tuple[Parameter, ...], frozenset[str]]:
-    """The ``[parameters]`` section, and the names given as one bare value (``--set`` replaces)."""
+    """The ``[parameters]`` section, and the names given as one bare value (any ``--param``)."""
     if not isinstance(value, dict):
         where.fail(f"must be a table, got {show(value)}", "write [parameters] on a line of its own")
     parameters = tuple(_parameter(name, item, where.at(name)) for name, item in value.items())
@@ -116,13 +116,13 @@ def read_parameters(value: object, where: Where) -> tuple[tuple[Parameter, ...],
 
 
 def set_parameter(parameter: Parameter, raw: str, *, single: bool, where: Where) -> Parameter:
-    """``parameter`` with the current value ``raw`` from ``--set NAME=VALUE``.
+    """``parameter`` with the current value ``raw`` from ``--param NAME=VALUE``.
 
     A parameter written as one bare value takes any value; otherwise ``raw`` must be one of
     its values. Integer parameters take decimal integers only.
     """
     name = parameter.name
-    example = f"e.g. --set {name}={parameter.values[-1]}"
+    example = f"e.g. --param {name}={parameter.values[-1]}"
     value: int | str = raw
     if isinstance(parameter.values[0], int):
         if not re.fullmatch(r"[+-]?[0-9]+", raw):

@@ -120,7 +120,7 @@ class VersionDiff:
         }
 
     def text_lines(self) -> list[str]:
-        """The rows as text: "+ " added, "- " removed, "~ " changed (values written as JSON)."""
+        """The rows as text, each line led by a word: added, removed, changed (values as JSON)."""
 
         def shown(value: object) -> str:
             return json.dumps(json_value(value), ensure_ascii=False)
@@ -128,14 +128,14 @@ class VersionDiff:
         def cells(row: Row) -> str:
             return ", ".join(f"{name}={shown(value)}" for name, value in row.items())
 
-        lines = [f"+ {cells(row)}" for row in self.added]
-        lines += [f"- {cells(row)}" for row in self.removed]
+        lines = [f"added {cells(row)}" for row in self.added]
+        lines += [f"removed {cells(row)}" for row in self.removed]
         for change in self.changed:
             key = ", ".join(f"{name}={shown(value)}" for name, value in change.key)
             edits = "; ".join(
                 f"{cell.column} {shown(cell.old)} → {shown(cell.new)}" for cell in change.changes
             )
-            lines.append(f"~ {key}: {edits}")
+            lines.append(f"changed {key}: {edits}")
         return lines
 
 

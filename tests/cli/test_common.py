@@ -16,23 +16,23 @@ RECIPE = str(Path(__file__).resolve().parents[2] / "recipes" / "league-players.t
     ("args", "message"),
     [
         (
-            ["check", RECIPE, "--set", "season"],
-            "--set 'season' is not NAME=VALUE",
+            ["check", RECIPE, "--param", "season"],
+            "--param 'season' is not NAME=VALUE",
         ),
         (
-            ["check", RECIPE, "--set", "=2024"],
-            "--set '=2024' is not NAME=VALUE",
+            ["check", RECIPE, "--param", "=2024"],
+            "--param '=2024' is not NAME=VALUE",
         ),
         (
             [
                 "check",
                 RECIPE,
-                "--set",
+                "--param",
                 "season=2024",
-                "--set",
+                "--param",
                 "season=2025",
             ],
-            "--set names 'season' twice",
+            "--param names 'season' twice",
         ),
         (
             ["diff", "league-players/players", "--partition", "season"],
@@ -52,6 +52,6 @@ def test_a_bad_pair_is_a_one_line_usage_error(args: list[str], message: str) -> 
 
 
 def test_blanks_around_a_name_and_a_value_are_ignored() -> None:
-    result = CliRunner().invoke(app, ["check", RECIPE, "--set", " season = 2024 ", "-f", "json"])
+    result = CliRunner().invoke(app, ["check", RECIPE, "--param", " season = 2024 ", "-f", "json"])
     assert result.exit_code == 0, result.stderr
     assert '"parameters": {"season": 2024}' in result.stdout

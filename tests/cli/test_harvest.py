@@ -26,7 +26,7 @@ def test_harvest_command_prints_one_line_per_table(demo_site: DemoServer, tmp_pa
             str(RECIPES / "league-standings.toml"),
             "--archive",
             str(tmp_path),
-            "--set",
+            "--param",
             f"site={demo_site.base_url}",
         ],
     )
@@ -46,9 +46,9 @@ def test_harvest_command_exits_non_zero_when_a_table_fails(
             str(RECIPES / "league-players.toml"),
             "--archive",
             str(tmp_path),
-            "--set",
+            "--param",
             f"site={demo_site.base_url}",
-            "--set",
+            "--param",
             "season=2013",
         ],
     )
@@ -59,7 +59,7 @@ def test_harvest_command_exits_non_zero_when_a_table_fails(
 @pytest.mark.parametrize("flag", ["--offline", "--refresh"])
 def test_cache_modes_reach_the_fetcher(demo_site: DemoServer, tmp_path: Path, flag: str) -> None:
     args = ["harvest", str(RECIPES / "league-contracts.toml"), "--archive", str(tmp_path)]
-    args += ["--set", f"site={demo_site.base_url}"]
+    args += ["--param", f"site={demo_site.base_url}"]
     assert CliRunner().invoke(app, args).exit_code == 0
     demo_site.clear_log()
     # No pause: the second run knows from the archive's cache when the first one last asked.

@@ -207,8 +207,8 @@ def test_diff_defaults_to_the_latest_visible_version_and_the_one_before(tmp_path
     assert out.splitlines() == [
         "league-players/players season=2019: version 2 → 3",
         "rows: 1 added, 1 removed, 0 changed, 2 unchanged (key player)",
-        '+ player="Rune Sell", goals=2',
-        '- player="Mara Quist", goals=8',
+        'added player="Rune Sell", goals=2',
+        'removed player="Mara Quist", goals=8',
     ]
 
 
@@ -222,9 +222,9 @@ def test_diff_between_chosen_versions(tmp_path: Path) -> None:
     assert out.splitlines() == [
         "league-players/players season=2019: version 1 → 3",
         "rows: 1 added, 1 removed, 1 changed, 1 unchanged (key player)",
-        '+ player="Rune Sell", goals=2',
-        '- player="Mara Quist", goals=8',
-        '~ player="Oda Venn": goals 12 → 13',
+        'added player="Rune Sell", goals=2',
+        'removed player="Mara Quist", goals=8',
+        'changed player="Oda Venn": goals 12 → 13',
     ]
 
 
@@ -260,8 +260,8 @@ def test_diff_without_a_recorded_key_compares_whole_rows(tmp_path: Path) -> None
     assert out.splitlines() == [
         "league-players/standings: version 1 → 2",
         "rows: 1 added, 1 removed, 0 changed, 1 unchanged (no key: whole rows compared)",
-        '+ club="Kalvik", points=22',
-        '- club="Kalvik", points=20',
+        'added club="Kalvik", points=22',
+        'removed club="Kalvik", points=20',
     ]
 
 
@@ -280,14 +280,14 @@ def test_diff_of_a_null_partition_and_an_encoded_value(tmp_path: Path) -> None:
     assert out.splitlines() == [
         "league-players/contracts club=__HIVE_DEFAULT_PARTITION__: version 1 → 2",
         "rows: 0 added, 0 removed, 1 changed, 0 unchanged (key player)",
-        '~ player="None keeper": salary 100 → 150',
+        'changed player="None keeper": salary 100 → 150',
     ]
     code, out, _ = run(
         "diff", f"{DATASET}/contracts", "-p", "club=Kalvik/Nord", "--archive", str(tmp_path)
     )
     assert code == 0
     assert out.splitlines()[0] == "league-players/contracts club=Kalvik/Nord: version 1 → 2"
-    assert out.splitlines()[2] == '~ player="K/N keeper": salary 100 → 150'
+    assert out.splitlines()[2] == 'changed player="K/N keeper": salary 100 → 150'
 
 
 def _diff_error(tmp_path: Path, *args: str) -> tuple[int, str]:

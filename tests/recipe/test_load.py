@@ -112,7 +112,7 @@ def test_template_example_is_a_valid_recipe() -> None:
 
 def test_sha256_is_the_digest_of_the_file_bytes() -> None:
     path = RECIPES / "league-players.toml"
-    # hashlib is the reference SHA-256 (FIPS 180-4); a --set does not change the file.
+    # hashlib is the reference SHA-256 (FIPS 180-4); a --param does not change the file.
     expected = hashlib.sha256(path.read_bytes()).hexdigest()
     assert load_recipe(path).sha256 == expected
     assert load_recipe(path, {"season": "2019"}).sha256 == expected
@@ -318,7 +318,7 @@ def test_default_partitions_are_the_parameters_every_page_uses(tmp_path: Path) -
     assert load_recipe(write(tmp_path, TWO_PARAMETERS)).store.partition_by == ("league",)
 
 
-# --- overrides (--set NAME=VALUE) ----------------------------------------------------------------
+# --- overrides (--param NAME=VALUE) --------------------------------------------------------------
 
 
 def test_set_season_and_site() -> None:
@@ -336,7 +336,7 @@ def test_set_season_and_site() -> None:
 def test_set_text_parameter_and_single_value_parameter(tmp_path: Path) -> None:
     text = TWO_PARAMETERS.replace('league = ["north", "south"]', 'league = "north"')
     recipe = load_recipe(write(tmp_path, text), {"league": "east"})
-    # A parameter written as one value takes any value from --set.
+    # A parameter written as one value takes any value from --param.
     assert recipe.parameters[1] == Parameter("league", ("east",), "east")
     recipe = load_recipe(write(tmp_path, TWO_PARAMETERS), {"league": "north"})
     assert recipe.parameters[1] == Parameter("league", ("north", "south"), "north")
@@ -347,30 +347,30 @@ def test_set_text_parameter_and_single_value_parameter(tmp_path: Path) -> None:
     [
         (
             {"season": "abc"},
-            "--set season",
+            "--param season",
             'season takes an integer, got "abc"',
-            "--set season=2026",
+            "--param season=2026",
         ),
         (
             {"season": "2030"},
-            "--set season",
+            "--param season",
             "must be one of 2012–2026, got 2030",
-            "--set season=2026",
+            "--param season=2026",
         ),
-        ({"season": "20 19"}, "--set season", 'season takes an integer, got "20 19"', ""),
+        ({"season": "20 19"}, "--param season", 'season takes an integer, got "20 19"', ""),
         (
             {"sesaon": "2019"},
-            "--set sesaon",
+            "--param sesaon",
             "nothing by that name can be set",
             'did you mean "season"?',
         ),
         (
             {"year": "2019"},
-            "--set year",
+            "--param year",
             "nothing by that name can be set",
             "you can set: site, season",
         ),
-        ({"site": "ftp://127.0.0.1"}, "--set site", 'got "ftp://127.0.0.1"', ""),
+        ({"site": "ftp://127.0.0.1"}, "--param site", 'got "ftp://127.0.0.1"', ""),
     ],
 )
 def test_bad_overrides(overrides: dict[str, str], key: str, message: str, hint: str) -> None:
@@ -386,7 +386,7 @@ def test_bad_overrides(overrides: dict[str, str], key: str, message: str, hint: 
 def test_set_text_value_must_be_one_of_the_values(tmp_path: Path) -> None:
     with pytest.raises(RecipeError) as caught:
         load_recipe(write(tmp_path, TWO_PARAMETERS), {"league": "east"})
-    assert caught.value.key == "--set league"
+    assert caught.value.key == "--param league"
     assert 'must be one of ["north", "south"], got "east"' in caught.value.message
 
 
@@ -460,7 +460,7 @@ def test_set_dot_segments_are_refused(tmp_path: Path, value: str) -> None:
     text = TWO_PARAMETERS.replace('league = ["north", "south"]', 'league = "north"')
     with pytest.raises(RecipeError) as caught:
         load_recipe(write(tmp_path, text), {"league": value})
-    assert caught.value.key == "--set league"
+    assert caught.value.key == "--param league"
     assert f'may not be "{value}"' in caught.value.message
 
 
