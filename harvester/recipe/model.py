@@ -47,7 +47,7 @@ class FetchSettings:
     """The ``[fetch]`` section: the shared page template and how politely to fetch."""
 
     url: str | None = None  # template; tables without a url of their own use it
-    delay: float = 1.0  # seconds between requests to one host (common practice, no source)
+    delay: float | None = None  # seconds between requests to one host; only ever raises the site's
     past: PastMode = "live"
     capture_near: str | None = None  # template of the date a web-archive capture should be near
     immutable_before: int | None = None  # parameter values below this never change

@@ -106,7 +106,7 @@ def live_source(
         identity,
         cache_dir=_local_cache_dir(archive),
         mode=mode,
-        min_interval=recipe.fetch.delay,
+        min_interval=recipe.fetch.delay or 0.0,  # no delay: the site's Crawl-delay governs
         transport=transport,
     )
 

@@ -127,7 +127,7 @@ def test_minimal_recipe_takes_the_documented_defaults(tmp_path: Path) -> None:
     recipe = load_recipe(path)
     assert recipe.site == "https://stats.example.org"  # the final / is dropped
     assert (recipe.contact, recipe.description, recipe.parameters) == (None, "", ())
-    assert recipe.fetch == FetchSettings(url=None, delay=1.0, past="live")
+    assert recipe.fetch == FetchSettings(url=None, delay=None, past="live")
     assert recipe.store == StoreSettings(partition_by=(), drift="refuse")
     assert recipe.table_rule("results") == TableRule(name="results")
     assert recipe.table_rule("results").nulls == DEFAULT_NULLS

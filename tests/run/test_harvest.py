@@ -6,17 +6,23 @@ server's request log, never from the code under test.
 
 from __future__ import annotations
 
+import asyncio
+import dataclasses
 import json
 from collections.abc import Callable
 from pathlib import Path
 
 import duckdb
 import pyarrow.parquet as pq
+import pytest
 
 from harvester.demo.league import build_league
 from harvester.demo.server import DemoServer
+from harvester.fetch.pacing import host_key
 from harvester.recipe import Recipe, load_recipe
-from harvester.run import Outcome, harvest
+from harvester.run import Outcome, harvest, live_source
+
+TEST_CRAWL_DELAY = 0.05  # tests/conftest.py starts demo servers with this Crawl-delay
 
 RECIPES = Path(__file__).resolve().parents[2] / "recipes"
 Factory = Callable[..., DemoServer]
@@ -141,3 +147,21 @@ def test_each_outcome_is_reported_as_soon_as_it_is_known(
     assert [table for table, _ in seen] == [o.table for o in report.outcomes]
     # robots.txt + standings when the first is reported; + contracts when the second is.
     assert seen == [("standings", 2), ("contracts", 3)]
+
+
+@pytest.mark.parametrize(("delay", "interval"), [(None, TEST_CRAWL_DELAY), (0.5, 0.5)])
+def test_without_a_delay_the_sites_crawl_delay_governs(
+    demo_site: DemoServer, tmp_path: Path, delay: float | None, interval: float
+) -> None:
+    # docs/fetching.md: the interval is the site's Crawl-delay, raised by the recipe's delay if
+    # that is larger; with no delay in the recipe, the Crawl-delay alone (not a 1 s default).
+    players = recipe("league-players", demo_site)
+    chosen = dataclasses.replace(players, fetch=dataclasses.replace(players.fetch, delay=delay))
+    page = demo_site.url("/seasons/2026/players.html")
+
+    async def interval_in_force() -> float:
+        async with live_source(chosen, str(tmp_path)) as fetcher:
+            await fetcher.check_robots(page)
+            return fetcher.pacer.interval(host_key(page))
+
+    assert asyncio.run(interval_in_force()) == interval
