@@ -66,6 +66,28 @@ def template_reader(known: Sequence[str], *, url: bool) -> Reader:
     return read
 
 
+def _authority_problem(url: str) -> tuple[str, str] | None:
+    """What is wrong with a URL's scheme-and-host part, and what to do; None when nothing is.
+
+    User info is refused outright: a name or password in a URL would be sent to the site
+    (``Authorization``) and written into every row's provenance (RFC 3986 §3.2.1 deprecates
+    "user:password" in URIs; RFC 9110 §4.2.4 says senders MUST NOT generate it for http(s)).
+    """
+    try:
+        parts = urlsplit(url)
+        port = parts.port  # reading .port is what checks it (RFC 3986 §3.2.3: digits)
+    except ValueError as exc:
+        return f"is not a URL Python can read ({exc})", "check the brackets and the port"
+    if parts.username is not None or parts.password is not None:
+        return (
+            "holds a user name or password before the host; credentials are never sent",
+            "remove the part up to and including @; harvester fetches only public pages",
+        )
+    if port is not None and not 0 < port < 65536:
+        return f"has port {port}, outside 1–65535", "fix the port, or leave it out"
+    return None
+
+
 def _check_url_shape(template: str, pieces: list[_Piece], where: Where) -> None:
     """Refuse URL templates where a value could change the scheme, host or port."""
     example = 'write url = "{site}/seasons/{season}/players.html"'
@@ -89,6 +111,9 @@ def _check_url_shape(template: str, pieces: list[_Piece], where: Where) -> None:
         where.fail("must start with {site}/ or http:// or https://", example)
     if any(fields) and not any(mark in prefix.split("://", 1)[1] for mark in "/?#"):
         where.fail("has a placeholder in the host part", "put placeholders after the host's /")
+    problem = _authority_problem(prefix)
+    if problem is not None:
+        where.fail(*problem)
     if not urlsplit(prefix).hostname:
         where.fail("has no host after ://", 'write url = "https://stats.example.org/{season}"')
 
@@ -97,12 +122,11 @@ def site_url(value: object, where: Where) -> str:
     """An http(s) URL with a host and no query, fragment or password; a final / is dropped."""
     example = '"https://stats.example.org"'
     site: str = text(example, required=True)(value, where)
+    problem = _authority_problem(site)
+    if problem is not None:
+        where.fail(*problem)
     parts = urlsplit(site)
-    try:
-        parts.port  # noqa: B018 - reading .port is what checks it
-        usable = parts.scheme in ("http", "https") and parts.hostname and not parts.username
-    except ValueError:
-        usable = False
+    usable = parts.scheme in ("http", "https") and parts.hostname
     if not usable or parts.query or parts.fragment or any(c.isspace() for c in site):
         where.expected("an http:// or https:// address (no user, query or #)", site, example)
     return site.rstrip("/")
