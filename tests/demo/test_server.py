@@ -272,7 +272,8 @@ def test_pacing_and_delay_options_reach_the_plumbing(demo_site_factory: Factory)
         assert client.get("/index.html").status_code == 200
         too_soon = client.get("/index.html")
         assert (too_soon.status_code, too_soon.headers["retry-after"]) == (429, "7")
-    lenient = demo_site_factory(enforce=False, slow={"/index.html": 0.3})
+    # A crawl delay of 1 s: the second request comes too soon even on a busy machine.
+    lenient = demo_site_factory(crawl_delay=1.0, enforce=False, slow={"/index.html": 0.3})
     with new_client(lenient) as client:
         began = time.monotonic()
         assert client.get("/robots.txt").status_code == 200
