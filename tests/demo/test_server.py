@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import csv
 import hashlib
-import math
 import re
 import time
 import zlib
@@ -48,18 +47,23 @@ def new_client(site: DemoServer, **options: Any) -> httpx.Client:
 
 
 class Polite:
-    """An httpx client that starts each request at least the crawl delay plus a margin apart."""
+    """An httpx client that starts each request the crawl delay plus a margin after the last.
 
-    def __init__(self, site: DemoServer, margin: float = 0.02) -> None:
+    "The last" is the latest start in the server's own log (same process, same monotonic
+    clock), so a slow connection set-up or a pause of the client cannot shrink the gap.
+    """
+
+    def __init__(self, site: DemoServer, margin: float = 0.01) -> None:
+        self.site = site
         self.client = new_client(site)
-        self.gap = site.crawl_delay + margin  # margin: server-side start times jitter a little
-        self.last = -math.inf
+        self.gap = site.crawl_delay + margin
 
     def request(self, method: str, path: str, **options: Any) -> httpx.Response:
-        wait = self.last + self.gap - time.monotonic()
-        if wait > 0:
-            time.sleep(wait)
-        self.last = time.monotonic()
+        # Responses are logged before their last write, so a finished request is in the log.
+        if records := self.site.log:
+            wait = records[-1].started + self.gap - time.monotonic()
+            if wait > 0:
+                time.sleep(wait)
         return self.client.request(method, path, **options)
 
     def get(self, path: str, **options: Any) -> httpx.Response:
