@@ -28,6 +28,7 @@ import statistics
 import tempfile
 import time
 from collections.abc import Callable
+from dataclasses import dataclass
 from datetime import UTC, date, datetime, timedelta
 from pathlib import Path
 
@@ -97,83 +98,99 @@ def median_time(repeats: int, setup: Callable[[], None], step: Callable[[], obje
     return statistics.median(times)
 
 
-def main() -> None:
-    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--partitions", type=int, default=100)
-    parser.add_argument("--rows", type=int, default=1000)
-    parser.add_argument("--repeats", type=int, default=5)
-    args = parser.parse_args()
-    seasons = list(range(1927, 1927 + args.partitions))
-    tables = {s: build_table(s, args.rows, seed=s) for s in seasons}
-    work = Path(tempfile.mkdtemp(prefix="store-bench-"))
-    bare, ours = work / "bare", work / "ours"
+@dataclass(frozen=True)
+class Timings:
+    """Median seconds of each measurement, lettered as in the module docstring."""
+
+    bare_write: float  # (a)
+    ours_write: float  # (b)
+    ours_write_without_fsync: float  # (b')
+    ours_unchanged: float  # (c)
+    bare_read: float  # (d)
+    archive_read: float | None  # (e), None when the read side is not present
+    dataset_read: float  # (f)
+
+
+def write_bare(tables: dict[int, pa.Table], root: Path) -> None:
+    """(a) Each table with plain ``pyarrow.parquet.write_table``, one folder per season."""
+    for s, table in tables.items():
+        folder = root / f"season={s}"
+        folder.mkdir(parents=True, exist_ok=True)
+        pq.write_table(table, folder / "part-0.parquet")
+
+
+def write_ours(tables: dict[int, pa.Table], root: Path) -> list[str]:
+    """(b), (c) Each table committed as a partition of the archive; the commit statuses."""
+    with ArchiveWriter(str(root)) as writer:
+        return [
+            writer.commit(
+                "league-players", "players", [("season", s)], t, provenance={"run_id": "bench"}
+            ).status
+            for s, t in tables.items()
+        ]
+
+
+def read_bare(root: Path) -> pa.Table:
+    """(d) Every bare file read back and concatenated."""
+    return pa.concat_tables(pq.read_table(p) for p in sorted(root.glob("*/part-0.parquet")))
+
+
+def read_ours_dataset(root: Path) -> pa.Table:
+    """(f) The latest version of every partition through ``pyarrow.dataset``."""
+    folder = root / "tables/league-players/players"
+    latest: dict[Path, tuple[int, str]] = {}
+    for path in folder.glob("season=*/version=*/part-0.parquet"):
+        n = int(path.parent.name.removeprefix("version="))
+        if n > latest.get(path.parent.parent, (0, ""))[0]:
+            latest[path.parent.parent] = (n, path.as_posix())
+    hive = ds.HivePartitioning(
+        pa.schema([("season", pa.int32()), ("version", pa.int32())]), segment_encoding="uri"
+    )
+    files = [p for _, p in latest.values()]
+    return ds.dataset(
+        files, format="parquet", partitioning=hive, partition_base_dir=str(folder)
+    ).to_table()
+
+
+def time_archive_read(root: Path, repeats: int, rows: int) -> float | None:
+    """(e) ``Archive.read`` of the table, or None when the read side is not present."""
+    try:
+        from harvester.store.archive import Archive
+    except ImportError:
+        return None
+    archive = Archive(str(root))
+    assert archive.read("league-players", "players").num_rows == rows
+    return median_time(repeats, lambda: None, lambda: archive.read("league-players", "players"))
+
+
+def run(tables: dict[int, pa.Table], bare: Path, ours: Path, repeats: int, rows: int) -> Timings:
+    """Time every measurement, in the order of the module docstring."""
 
     def clear(folder: Path) -> Callable[[], None]:
         return lambda: shutil.rmtree(folder, ignore_errors=True)
 
-    def write_bare() -> None:
-        for s, table in tables.items():
-            folder = bare / f"season={s}"
-            folder.mkdir(parents=True, exist_ok=True)
-            pq.write_table(table, folder / "part-0.parquet")
-
-    def write_ours() -> list[str]:
-        with ArchiveWriter(str(ours)) as writer:
-            return [
-                writer.commit(
-                    "league-players", "players", [("season", s)], t, provenance={"run_id": "bench"}
-                ).status
-                for s, t in tables.items()
-            ]
-
-    def read_bare() -> pa.Table:
-        return pa.concat_tables(pq.read_table(p) for p in sorted(bare.glob("*/part-0.parquet")))
-
-    def read_ours_dataset() -> pa.Table:
-        folder = ours / "tables/league-players/players"
-        latest: dict[Path, tuple[int, str]] = {}
-        for path in folder.glob("season=*/version=*/part-0.parquet"):
-            n = int(path.parent.name.removeprefix("version="))
-            if n > latest.get(path.parent.parent, (0, ""))[0]:
-                latest[path.parent.parent] = (n, path.as_posix())
-        hive = ds.HivePartitioning(
-            pa.schema([("season", pa.int32()), ("version", pa.int32())]), segment_encoding="uri"
-        )
-        files = [p for _, p in latest.values()]
-        return ds.dataset(
-            files, format="parquet", partitioning=hive, partition_base_dir=str(folder)
-        ).to_table()
-
-    a = median_time(args.repeats, clear(bare), write_bare)
-    b = median_time(args.repeats, clear(ours), write_ours)
+    a = median_time(repeats, clear(bare), lambda: write_bare(tables, bare))
+    b = median_time(repeats, clear(ours), lambda: write_ours(tables, ours))
     real_fsync = os.fsync
     os.fsync = lambda fd: None  # this script only: how much of (b) the fsyncs are
     try:
-        b_nofsync = median_time(args.repeats, clear(ours), write_ours)
+        b_nofsync = median_time(repeats, clear(ours), lambda: write_ours(tables, ours))
     finally:
         os.fsync = real_fsync
-    c = median_time(args.repeats, lambda: None, write_ours)  # all "unchanged" now
-    assert set(write_ours()) == {"unchanged"}
-    d = median_time(args.repeats, lambda: None, read_bare)
-    f = median_time(args.repeats, lambda: None, read_ours_dataset)
-    rows = args.partitions * args.rows
-    assert read_bare().num_rows == rows and read_ours_dataset().num_rows == rows
-    try:
-        from harvester.store.archive import Archive
-    except ImportError:
-        e = None
-    else:
-        archive = Archive(str(ours))
-        assert archive.read("league-players", "players").num_rows == rows
-        e = median_time(
-            args.repeats, lambda: None, lambda: archive.read("league-players", "players")
-        )
-    size = sum(p.stat().st_size for p in bare.rglob("*.parquet"))
-    shutil.rmtree(work)
+    c = median_time(repeats, lambda: None, lambda: write_ours(tables, ours))  # all "unchanged"
+    assert set(write_ours(tables, ours)) == {"unchanged"}
+    d = median_time(repeats, lambda: None, lambda: read_bare(bare))
+    f = median_time(repeats, lambda: None, lambda: read_ours_dataset(ours))
+    assert read_bare(bare).num_rows == rows and read_ours_dataset(ours).num_rows == rows
+    e = time_archive_read(ours, repeats, rows)
+    return Timings(a, b, b_nofsync, c, d, e, f)
 
-    print(
-        f"{args.partitions} partitions × {args.rows} rows, {len(tables[seasons[0]].schema)} columns"
-    )
+
+def report(args: argparse.Namespace, columns: int, size: int, t: Timings) -> None:
+    """Print the timings in milliseconds, then the ratios to bare pyarrow."""
+    a, b, b_nofsync, c = t.bare_write, t.ours_write, t.ours_write_without_fsync, t.ours_unchanged
+    d, e, f = t.bare_read, t.archive_read, t.dataset_read
+    print(f"{args.partitions} partitions × {args.rows} rows, {columns} columns")
     print(f"bare files total {size / 1e6:.1f} MB; median of {args.repeats} repeats")
     print(f"(a) bare write_table                    {a * 1000:8.1f} ms")
     print(f"(b) ArchiveWriter.commit, new versions  {b * 1000:8.1f} ms")
@@ -186,6 +203,22 @@ def main() -> None:
     print(f"write  b/a  = {b / a:.2f}   b'/a = {b_nofsync / a:.2f}   c/a = {c / a:.2f}")
     read = f"read   f/d  = {f / d:.2f}"
     print(read + (f"   e/d = {e / d:.2f}" if e is not None else "   (read side not present)"))
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--partitions", type=int, default=100)
+    parser.add_argument("--rows", type=int, default=1000)
+    parser.add_argument("--repeats", type=int, default=5)
+    args = parser.parse_args()
+    seasons = list(range(1927, 1927 + args.partitions))
+    tables = {s: build_table(s, args.rows, seed=s) for s in seasons}
+    work = Path(tempfile.mkdtemp(prefix="store-bench-"))
+    bare, ours = work / "bare", work / "ours"
+    timings = run(tables, bare, ours, args.repeats, args.partitions * args.rows)
+    size = sum(p.stat().st_size for p in bare.rglob("*.parquet"))
+    shutil.rmtree(work)
+    report(args, len(tables[seasons[0]].schema), size, timings)
 
 
 if __name__ == "__main__":

@@ -13,16 +13,21 @@ Consistency holds by construction, so tests (and harvested tables) can check it:
 
 ``League.season(year, revision)`` "advances the clock": revision n > 0 changes a few values of
 the latest season only (goals moved between teammates, one salary), keeping the rules above.
+
+This module builds the league and its careers (debuts, retirements, transfers, contracts) and
+revises it; the record types are in ``records`` (and importable from here), the names in
+``names``, and each season's games and player statistics in ``simulation``.
 """
 
 from __future__ import annotations
 
-import math
 import random
-from collections.abc import Sequence
 from dataclasses import dataclass, field, replace
 from datetime import date
 
+from harvester.demo.names import club_name, person_name, town_name
+from harvester.demo.records import Club, Contract, Player, PlayerSeason, Season, Standing
+from harvester.demo.simulation import play_season, player_seasons
 from harvester.errors import HarvesterError
 
 __all__ = [
@@ -51,112 +56,6 @@ LEAGUE_NAME = "Quellmark Regional Handball League"
 CONFERENCES: tuple[str, str] = ("North Conference", "South Conference")
 POSITIONS: tuple[str, ...] = ("GK", "LW", "RW", "LB", "CB", "RB", "PV")
 CLUBS_PER_CONFERENCE = 5
-GAME_SECONDS = 60 * 60  # two halves of 30 minutes (IHF Rules of the Game, rule 2:1; from memory)
-
-# Syllables chosen to sound plausible without spelling real places or people.
-_TOWN_HEADS = ("Vrel", "Osk", "Quen", "Thar", "Mib", "Dask", "Yol", "Zen", "Brak", "Hurn", "Sveld")
-_TOWN_TAILS = ("mark", "vik", "usk", "ovo", "ane", "ith", "orra", "emby", "aldt", "ingue")
-_CLUB_PATTERNS = ("HC {}", "{} Handball", "{} HC", "Handball {}")
-_FIRST_HEADS = ("Ka", "Ve", "Lo", "Mi", "Da", "Ro", "Se", "Ti", "Bo", "Ne", "Jo", "Fa", "Ul")
-_FIRST_TAILS = ("ren", "lis", "vo", "dan", "mir", "tek", "sa", "nor", "bel", "quin", "rik")
-_LAST_HEADS = ("Vor", "Kel", "Dra", "Mun", "Sil", "Tav", "Bre", "Osk", "Hal", "Zem", "Pry")
-_LAST_MIDS = ("ne", "ka", "lo", "ri", "va", "du", "")
-_LAST_TAILS = ("vik", "dar", "strom", "mek", "lund", "sen", "ard", "ovic", "berk")
-# Share of a club's goals by position, and usual scoring rate (invented, loosely plausible).
-_GOAL_WEIGHT = {"LW": 0.8, "RW": 0.8, "LB": 1.1, "CB": 1.0, "RB": 1.1, "PV": 0.9}
-_SHOT_RATE = {"LW": 0.66, "RW": 0.66, "LB": 0.52, "CB": 0.55, "RB": 0.52, "PV": 0.70}
-_ASSISTS_PER_GAME = {"GK": 0.2, "LW": 1.0, "RW": 1.0, "LB": 2.5, "CB": 4.0, "RB": 2.5, "PV": 1.2}
-
-
-@dataclass(frozen=True)
-class Club:
-    """One club: a 3-letter code, its full name, home town and conference."""
-
-    code: str
-    name: str
-    town: str
-    conference: str
-
-
-@dataclass(frozen=True)
-class Player:
-    """One player: stable id (``p`` + 4 digits), name, birth date and position."""
-
-    player_id: str
-    first: str
-    last: str
-    born: date
-    position: str
-
-    @property
-    def name(self) -> str:
-        """The name as "First Last"."""
-        return f"{self.first} {self.last}"
-
-
-@dataclass(frozen=True)
-class PlayerSeason:
-    """One player's statistics for one season at one club (``seconds`` is court time)."""
-
-    player_id: str
-    club: str
-    captain: bool
-    games: int
-    seconds: int
-    goals: int
-    shots: int
-    seven_goals: int
-    seven_shots: int
-    assists: int
-
-
-@dataclass(frozen=True)
-class Contract:
-    """A player's contract as listed in one season; ``salary`` is None when not disclosed."""
-
-    player_id: str
-    club: str
-    salary: int | None
-    years: int
-    expires: date
-
-
-@dataclass(frozen=True)
-class Standing:
-    """One club's record over a season."""
-
-    club: str
-    games: int
-    wins: int
-    draws: int
-    losses: int
-    goals_for: int
-    goals_against: int
-
-    @property
-    def points(self) -> int:
-        """Two points a win, one a draw."""
-        return 2 * self.wins + self.draws
-
-    @property
-    def goal_difference(self) -> int:
-        """Goals for minus goals against."""
-        return self.goals_for - self.goals_against
-
-
-@dataclass(frozen=True)
-class Season:
-    """Everything recorded for one season."""
-
-    year: int
-    players: tuple[PlayerSeason, ...]
-    contracts: tuple[Contract, ...]
-    standings: tuple[Standing, ...]
-
-    def ranked(self, conference_clubs: Sequence[str]) -> list[Standing]:
-        """The standings of the given clubs, best first: points, then GD, then GF, then code."""
-        rows = [row for row in self.standings if row.club in conference_clubs]
-        return sorted(rows, key=lambda r: (-r.points, -r.goal_difference, -r.goals_for, r.club))
 
 
 @dataclass(frozen=True)
@@ -227,10 +126,10 @@ def build_league(seed: int = DEFAULT_SEED) -> League:
             if captains.get(club.code) not in members:
                 # The oldest player takes over; ties go to the lowest id, so no randomness needed.
                 captains[club.code] = min(members, key=lambda pid: (people.by_id[pid].born, pid))
-        standings = _play_season(rng, clubs)
+        standings = play_season(rng, clubs)
         rows: list[PlayerSeason] = []
         for club, standing in zip(clubs, standings, strict=True):
-            rows.extend(_club_stats(rng, club.code, rosters[club.code], standing, captains))
+            rows.extend(player_seasons(rng, club.code, rosters[club.code], standing, captains))
         season_contracts = []
         for row in rows:
             contract = contracts.get(row.player_id)
@@ -245,14 +144,14 @@ def build_league(seed: int = DEFAULT_SEED) -> League:
 def _make_clubs(rng: random.Random) -> tuple[Club, ...]:
     towns: list[str] = []
     while len(towns) < 2 * CLUBS_PER_CONFERENCE:
-        town = rng.choice(_TOWN_HEADS) + rng.choice(_TOWN_TAILS)
+        town = town_name(rng)
         # Codes are the town's first three letters, so those must be unique.
         if all(other[:3] != town[:3] for other in towns):
             towns.append(town)
     return tuple(
         Club(
             code=town[:3].upper(),
-            name=rng.choice(_CLUB_PATTERNS).format(town),
+            name=club_name(rng, town),
             town=town,
             conference=CONFERENCES[index // CLUBS_PER_CONFERENCE],
         )
@@ -272,8 +171,7 @@ class _People:
     def new(self, position: str, year: int) -> str:
         rng = self.rng
         while True:
-            first = rng.choice(_FIRST_HEADS) + rng.choice(_FIRST_TAILS)
-            last = rng.choice(_LAST_HEADS) + rng.choice(_LAST_MIDS) + rng.choice(_LAST_TAILS)
+            first, last = person_name(rng)
             if f"{first} {last}" not in self.names:
                 break
         self.names.add(f"{first} {last}")
@@ -305,87 +203,6 @@ def _retire_and_transfer(
         slot_one, slot_other = rng.randrange(2), rng.randrange(2)
         pair_one, pair_other = rosters[one][position], rosters[other][position]
         pair_one[slot_one], pair_other[slot_other] = pair_other[slot_other], pair_one[slot_one]
-
-
-def _play_season(rng: random.Random, clubs: tuple[Club, ...]) -> tuple[Standing, ...]:
-    """Play a double round robin and return each club's record, in club order."""
-    strength = {club.code: rng.randint(-3, 3) for club in clubs}
-    # Per club: wins, draws, losses, goals for, goals against.
-    record = {club.code: [0, 0, 0, 0, 0] for club in clubs}
-    for home in record:
-        for away in record:
-            if home == away:
-                continue
-            home_goals = rng.randint(23, 33) + strength[home] + 1  # home advantage
-            away_goals = rng.randint(23, 33) + strength[away]
-            for own, scored, conceded in (
-                (home, home_goals, away_goals),
-                (away, away_goals, home_goals),
-            ):
-                result = 0 if scored > conceded else 1 if scored == conceded else 2
-                record[own][result] += 1
-                record[own][3] += scored
-                record[own][4] += conceded
-    return tuple(Standing(code, sum(r[:3]), *r) for code, r in record.items())
-
-
-def _club_stats(
-    rng: random.Random,
-    code: str,
-    roster: dict[str, list[str]],
-    standing: Standing,
-    captains: dict[str, str],
-) -> list[PlayerSeason]:
-    games = standing.games
-    seconds: dict[str, int] = {}
-    played: dict[str, int] = {}
-    for pair in roster.values():
-        # The two players of a position share its court time, less time lost to suspensions.
-        total = games * GAME_SECONDS - rng.randint(0, 45 * 60)
-        starter = round(total * rng.uniform(0.55, 0.95))
-        for pid, floor, share in ((pair[0], 14, starter), (pair[1], 6, total - starter)):
-            seconds[pid] = share
-            played[pid] = rng.randint(max(floor, math.ceil(share / GAME_SECONDS)), games)
-    goals, shots = dict.fromkeys(seconds, 0), dict.fromkeys(seconds, 0)
-    for pid in roster["GK"]:
-        if rng.random() < 0.12:  # a rare long throw into an empty goal
-            goals[pid] = rng.randint(1, 2)
-            shots[pid] = goals[pid] + rng.randint(0, 2)
-    field_players = [(pos, pid) for pos, pair in roster.items() if pos != "GK" for pid in pair]
-    weights = [
-        _GOAL_WEIGHT[pos] * seconds[pid] * rng.uniform(0.5, 1.5) for pos, pid in field_players
-    ]
-    shares = _apportion(standing.goals_for - sum(goals.values()), weights)
-    for (pos, pid), share in zip(field_players, shares, strict=True):
-        goals[pid] = share
-        rate = _SHOT_RATE[pos] * rng.uniform(0.88, 1.12)
-        shots[pid] = math.ceil(share / rate) if share else rng.randint(0, 2)
-    seven_goals, seven_shots = dict.fromkeys(seconds, 0), dict.fromkeys(seconds, 0)
-    takers = sorted((pid for pos, pid in field_players if pos != "PV"), key=lambda p: -goals[p])
-    for pid, attempts in zip(takers[:2], (rng.randint(40, 65), rng.randint(5, 20)), strict=True):
-        scored = min(goals[pid], round(attempts * rng.uniform(0.65, 0.85)))
-        seven_goals[pid] = scored
-        seven_shots[pid] = scored + min(shots[pid] - goals[pid], attempts - scored)
-    assists = {
-        pid: round(played[pid] * _ASSISTS_PER_GAME[pos] * rng.uniform(0.6, 1.4))
-        for pos, pair in roster.items()
-        for pid in pair
-    }
-    columns = (played, seconds, goals, shots, seven_goals, seven_shots, assists)
-    return [
-        PlayerSeason(pid, code, captains[code] == pid, *(column[pid] for column in columns))
-        for pid in assists
-    ]
-
-
-def _apportion(total: int, weights: list[float]) -> list[int]:
-    """Split ``total`` into integers proportional to ``weights`` (largest remainder method)."""
-    exact = [total * w / sum(weights) for w in weights]
-    shares = [math.floor(x) for x in exact]
-    by_remainder = sorted(range(len(exact)), key=lambda i: (shares[i] - exact[i], i))
-    for i in by_remainder[: total - sum(shares)]:
-        shares[i] += 1
-    return shares
 
 
 def _new_contract(rng: random.Random, player_id: str, club: str, year: int) -> Contract:

@@ -1,7 +1,7 @@
 """What the demo server answers: reply records, conditional requests, and synthetic bodies.
 
-Data, pure functions, and the writing of a reply to a request handler's stream; the server,
-its routes and its options are in ``server.py``.
+Data, pure functions, and the writing of a reply to a request handler's stream; the HTTP
+plumbing that uses them is in ``loopback.py``, the league site's routes in ``routes.py``.
 """
 
 from __future__ import annotations
@@ -77,16 +77,19 @@ def http_date(value: str) -> datetime | None:
 
 
 def error_reply(status: int, headers: Mapping[str, str] | None = None) -> Reply:
+    """A small HTML page that names ``status``, with extra ``headers``."""
     phrase = status_phrase(status)
     body = page(f"{status} {phrase}", f"<p>The demo site answers {status} {phrase}.</p>")
     return Reply(status, {"Content-Type": HTML, **(headers or {})}, body)
 
 
 def redirect_reply(location: str) -> Reply:
+    """A 302 to ``location``."""
     return Reply(302, {"Location": location, "Content-Type": HTML}, page("Found", ""))
 
 
 def page(title: str, body: str) -> bytes:
+    """A minimal HTML document, encoded as UTF-8."""
     head = f"<!DOCTYPE html>\n<html><head><title>{title}</title></head>\n"
     return f"{head}<body>{body}</body></html>\n".encode()
 
