@@ -236,7 +236,18 @@ def main() -> None:
     print(f"c/b = {reference / ours:.1f}   (aim >= 8)")
     print(f"b/a = {ours / parse:.2f}   (aim <= 2.5)")
 
-    counts, collecting = collections_during(unpaused, args.repeats)
+    report_collector(unpaused, running_times, off_times, args.repeats)
+    report_memory(data, args.rows, args.memory_rows)
+
+
+def report_collector(
+    unpaused: Callable[[], object],
+    running_times: list[float],
+    off_times: list[float],
+    repeats: int,
+) -> None:
+    """Print (d) against (e), and how many collections a run of (d) sets off."""
+    counts, collecting = collections_during(unpaused, repeats)
     print(f"collector, without extract_table's pause ({len(gc.get_objects()):,} objects tracked):")
     # A full collection comes only every few runs, so the mean is what a long harvest pays;
     # the median shows a typical run.
@@ -253,11 +264,15 @@ def main() -> None:
     print(f"  d/e = {medians:.2f} (medians), {means:.2f} (means)")
     shown = ", ".join(f"generation {generation}: {n}" for generation, n in counts.items())
     print(
-        f"  {args.repeats} more runs of (d): {shown or 'no collections'}; "
-        f"{collecting / args.repeats * 1000:.1f} ms collecting per run"
+        f"  {repeats} more runs of (d): {shown or 'no collections'}; "
+        f"{collecting / repeats * 1000:.1f} ms collecting per run"
     )
-    for rows in (args.rows, args.memory_rows):
-        page = data if rows == args.rows else build_page(rows).encode()
+
+
+def report_memory(data: bytes, rows: int, memory_rows: int) -> None:
+    """Print peak memory against page size, for the timed page and for a large one."""
+    for count in (rows, memory_rows):
+        page = data if count == rows else build_page(count).encode()
         before, peak = peak_memory_kib(page)
         print(
             f"memory, {len(page) / 1e6:.1f} MB page: peak RSS {peak / 1024:.0f} MiB, "
