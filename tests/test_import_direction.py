@@ -11,14 +11,14 @@ import ast
 from pathlib import Path
 
 PACKAGE = Path(__file__).resolve().parents[1] / "harvester"
-SHARED = {"_version", "errors", "config", "timestamps", "jsonvalues"}
+SHARED = {"_version", "errors", "config", "timestamps", "formats"}
 
 # Which parts of harvester each part may import (besides itself). Anything else is a failure.
 ALLOWED: dict[str, set[str]] = {
     "_version": set(),
     "errors": set(),
     "timestamps": set(),
-    "jsonvalues": {"timestamps"},
+    "formats": {"timestamps"},
     "config": {"errors"},
     "extract": SHARED,
     "fetch": SHARED,

@@ -11,7 +11,7 @@ import typer
 from harvester.cli.common import DEFAULT_ARCHIVE, ArchiveOption, fail, usage
 from harvester.cli.render import table_to_rich
 from harvester.errors import HarvesterError
-from harvester.jsonvalues import json_value
+from harvester.formats import json_value
 
 __all__ = ["demo_command"]
 

@@ -10,6 +10,7 @@ import typer
 
 from harvester.cli.common import ParamOption, TextFormat, fail, parse_assignments
 from harvester.errors import HarvesterError
+from harvester.formats import tsv_field
 
 __all__ = ["check_command"]
 
@@ -44,4 +45,4 @@ def check_command(
         f"{recipe}: recipe {loaded.name!r} is valid — {len(plan)} page(s), {tables} table(s)"
     )
     for page in plan:
-        typer.echo(f"{page.url}\t{', '.join(page.tables)}")
+        typer.echo(f"{tsv_field(page.url)}\t{tsv_field(', '.join(page.tables))}")

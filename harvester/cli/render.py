@@ -11,7 +11,7 @@ from typing import Any, TextIO
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from harvester.jsonvalues import json_value
+from harvester.formats import json_value
 
 __all__ = [
     "grid_to_csv",

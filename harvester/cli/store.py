@@ -21,6 +21,7 @@ from harvester.cli.common import (
     usage,
 )
 from harvester.errors import HarvesterError
+from harvester.formats import tsv_field
 from harvester.store.archive import Archive
 from harvester.store.contract import NULL_SEGMENT
 from harvester.store.layout import show_partition
@@ -66,7 +67,8 @@ def versions_command(
         return
     for info in infos:
         fields = (info.table, show_partition(info.partition), str(info.version), str(info.rows))
-        typer.echo("\t".join((*fields, rfc3339(info.committed_at), info.data_sha256)))
+        line = (*fields, rfc3339(info.committed_at), info.data_sha256)
+        typer.echo("\t".join(tsv_field(field) for field in line))
 
 
 def diff_command(

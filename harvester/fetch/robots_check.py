@@ -14,6 +14,7 @@ from types import MappingProxyType
 from harvester.fetch.identity import Identity
 from harvester.fetch.robots import RobotsTxt, Verdict, robots_url
 from harvester.fetch.sync import SyncFetcher
+from harvester.formats import tsv_field
 
 __all__ = ["RobotsReport", "UrlVerdict", "judge_by_file", "judge_live"]
 
@@ -35,8 +36,8 @@ class UrlVerdict:
 
     def line(self, *, explain: bool = False) -> str:
         """``allowed<TAB>URL`` or ``disallowed<TAB>URL``, with the reason as a third column."""
-        text = f"{'allowed' if self.verdict.allowed else 'disallowed'}\t{self.url}"
-        return f"{text}\t{self.why}" if explain else text
+        text = f"{'allowed' if self.verdict.allowed else 'disallowed'}\t{tsv_field(self.url)}"
+        return f"{text}\t{tsv_field(self.why)}" if explain else text
 
     def to_dict(self) -> dict[str, object]:
         """The verdict as plain JSON values."""

@@ -12,6 +12,7 @@ from dataclasses import asdict, dataclass, field
 from datetime import datetime
 from typing import Literal
 
+from harvester.formats import tsv_field
 from harvester.store.layout import join, open_root
 from harvester.timestamps import rfc3339
 
@@ -43,7 +44,7 @@ class Outcome:
         worth = self.status in ("failed", "refused") or "drift" in self.message
         parts = [self.status, f"{self.dataset}/{self.table}", where, detail, self.url]
         parts.append(self.message if worth else "")
-        return "\t".join(part for part in parts if part)
+        return "\t".join(tsv_field(part) for part in parts if part)
 
 
 @dataclass

@@ -25,7 +25,7 @@ from dataclasses import dataclass
 import pyarrow as pa
 
 from harvester.errors import StoreError
-from harvester.jsonvalues import json_value
+from harvester.formats import json_value
 from harvester.store.contract import data_columns
 
 __all__ = ["CellChange", "RowChange", "VersionDiff", "diff_versions"]
@@ -97,7 +97,7 @@ class VersionDiff:
         return line
 
     def to_dict(self) -> dict[str, object]:
-        """The diff as plain JSON-ready values (cells as ``harvester.jsonvalues`` writes them)."""
+        """The diff as plain JSON-ready values (cells as ``harvester.formats`` writes them)."""
         return {
             "key": list(self.key),
             "key_given": self.key_given,

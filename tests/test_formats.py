@@ -8,7 +8,7 @@ from decimal import Decimal
 
 import pytest
 
-from harvester.jsonvalues import json_value
+from harvester.formats import json_value, tsv_field
 
 
 @pytest.mark.parametrize(
@@ -45,3 +45,25 @@ def test_every_value_is_strict_json() -> None:
     # allow_nan=False raises on any NaN or Infinity that slipped through (json module docs).
     text = json.dumps([json_value(value) for value in values], allow_nan=False)
     assert json.loads(text)[:2] == [None, None]
+
+
+@pytest.mark.parametrize(
+    ("value", "field"),
+    [
+        ("season=2019", "season=2019"),
+        ("north\tsouth", "north\\tsouth"),  # a tab would start a new field
+        ("a\nfailed\tforged", "a\\nfailed\\tforged"),  # a line break would start a new line
+        ("cr\r", "cr\\r"),
+        ("back\\slash", "back\\\\slash"),  # escaped too, so every escape reads back one way
+        ("bell\x07 del\x7f c1\x85", "bell\\x07 del\\x7f c1\\x85"),
+        ("Åsa Øberg\u00a0§", "Åsa Øberg\u00a0§"),  # printable text and NBSP stay as they are
+        (2019, "2019"),
+    ],
+)
+def test_tsv_field(value: object, field: str) -> None:
+    assert tsv_field(value) == field
+
+
+def test_a_forged_value_stays_on_its_line() -> None:
+    line = "\t".join(tsv_field(part) for part in ["new", "x\nfailed\ty", "z"])
+    assert line.count("\n") == 0 and line.split("\t") == ["new", "x\\nfailed\\ty", "z"]
