@@ -28,7 +28,9 @@ from harvester.recipe.schema import (
 )
 from harvester.recipe.templates import expand_template, site_url, template_names, template_reader
 
-__all__ = ["load_recipe"]
+__all__ = ["MAX_RECIPE_BYTES", "load_recipe"]
+
+MAX_RECIPE_BYTES = 1_048_576  # 1 MiB; the demo recipes are under 3 KB (common practice, no source)
 
 SECTIONS = ("recipe", "parameters", "fetch", "tables", "store")
 _REQUIRED = {"name": 'name = "league-players"', "site": 'site = "http://127.0.0.1:8650"'}
@@ -97,11 +99,17 @@ _SYNTAX_HINTS = {
 def _read_toml(file: Path, where: Where) -> tuple[dict[str, Any], str]:
     """The parsed TOML and the SHA-256 of the file's bytes."""
     try:
-        raw = file.read_bytes()
+        with file.open("rb") as handle:
+            raw = handle.read(MAX_RECIPE_BYTES + 1)  # never more: the path may be /dev/zero
     except FileNotFoundError:
         where.fail("recipe file not found", "check the path; recipes usually live in recipes/")
     except OSError as exc:
         where.fail(f"cannot read the recipe file: {exc.strerror}", "check the path and permissions")
+    if len(raw) > MAX_RECIPE_BYTES:
+        where.fail(
+            f"is larger than {MAX_RECIPE_BYTES:,} bytes; a recipe is a few kilobytes of TOML",
+            "check the path: this is not a recipe file",
+        )
     try:
         source = raw.decode("utf-8").removeprefix("\ufeff")  # tolerate a byte-order mark
     except UnicodeDecodeError as exc:  # TOML v1.0.0: "A TOML file must be ... UTF-8"

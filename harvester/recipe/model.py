@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import dataclasses
 import itertools
+import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -20,6 +21,7 @@ from harvester.recipe.readers import suggest
 from harvester.recipe.templates import expand_template, template_names
 
 __all__ = [
+    "MAX_PLAN_PAGES",
     "FetchSettings",
     "Parameter",
     "PlannedPage",
@@ -29,6 +31,7 @@ __all__ = [
     "choose_table_rule",
 ]
 
+MAX_PLAN_PAGES = 100_000  # pages one plan may hold: at one a second, more than a day of fetching
 PastMode = Literal["live", "capture", "live-then-capture"]
 DriftPolicy = Literal["refuse", "warn", "accept"]
 
@@ -130,6 +133,7 @@ class Recipe:
         """
         names = [parameter.name for parameter in self.parameters]
         choices = [p.values if every_value else (p.current,) for p in self.parameters]
+        self._check_plan_size(choices)
         uses = {table.rule.name: set(template_names(table.url)) for table in self.tables}
         pages: dict[str, tuple[dict[str, int | str], list[str]]] = {}
         for combination in itertools.product(*choices):
@@ -144,6 +148,21 @@ class Recipe:
             PlannedPage(url, MappingProxyType({n: used[n] for n in names if n in used}), tuple(t))
             for url, (used, t) in pages.items()
         ]
+
+    def _check_plan_size(self, choices: Sequence[Sequence[int | str]]) -> None:
+        """Refuse, before building anything, a plan of more than MAX_PLAN_PAGES combinations."""
+        combinations = math.prod(len(values) for values in choices)
+        if combinations <= MAX_PLAN_PAGES:
+            return
+        counts = " × ".join(
+            f"{len(values):,} {parameter.name}"
+            for parameter, values in zip(self.parameters, choices, strict=True)
+        )
+        raise RecipeError(
+            f"plans {combinations:,} combinations ({counts}), more than {MAX_PLAN_PAGES:,}",
+            path=str(self.path),
+            hint="narrow a parameter's range or list, or plan one value of it with --param",
+        )
 
     def plan_record(self, pages: Sequence[PlannedPage]) -> dict[str, object]:
         """A plan as plain JSON values: the recipe's name and SHA-256, and each page."""

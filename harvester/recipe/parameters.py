@@ -14,11 +14,20 @@ from harvester.recipe.readers import Reader, Where, integer, show
 from harvester.recipe.schema import home_hint, read_section
 from harvester.store.contract import PARTITION_KEY
 
-__all__ = ["MAX_RANGE", "PARAMETER_NAME", "read_parameters", "set_parameter"]
+__all__ = [
+    "MAX_DIGITS",
+    "MAX_RANGE",
+    "MAX_TEXT_VALUE",
+    "PARAMETER_NAME",
+    "read_parameters",
+    "set_parameter",
+]
 
 # Parameters name partition folders, so they follow the archive's partition-key rule.
 PARAMETER_NAME = PARTITION_KEY
 MAX_RANGE = 10_000  # values one from/to range may hold, so a typo like to = 20266 stays cheap
+MAX_TEXT_VALUE = 200  # characters in one text value: a path segment, not a document (no source)
+MAX_DIGITS = 18  # digits of an integer value: every such number fits in 64 bits, signed
 
 
 def _value(value: object, where: Where) -> int | str:
@@ -31,6 +40,16 @@ def _value(value: object, where: Where) -> int | str:
         # Dot-segments move up a folder however they are encoded (RFC 3986 §3.3, §5.2.4; the
         # WHATWG URL parser also reads %2e as a dot, from memory).
         where.fail(f"may not be {show(value)}", 'give a value a page address can hold: "north"')
+    if isinstance(value, str):
+        try:
+            value.encode("utf-8")
+        except UnicodeEncodeError:  # a command-line argument that was not UTF-8 (surrogateescape)
+            where.fail("is not UTF-8 text", "give the value as UTF-8 text")
+        if len(value) > MAX_TEXT_VALUE:
+            where.fail(
+                f"is {len(value):,} characters long, more than {MAX_TEXT_VALUE}",
+                "give a value a page address can hold: a word or a number",
+            )
     return value
 
 
@@ -127,6 +146,8 @@ def set_parameter(parameter: Parameter, raw: str, *, single: bool, where: Where)
     if isinstance(parameter.values[0], int):
         if not re.fullmatch(r"[+-]?[0-9]+", raw):
             where.fail(f"{name} takes an integer, got {show(raw)}", example)
+        if len(raw.lstrip("+-")) > MAX_DIGITS:
+            where.fail(f"{name} takes an integer of at most {MAX_DIGITS} digits", example)
         value = int(raw)
     value = _value(value, where)
     if single:
