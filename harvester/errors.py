@@ -11,7 +11,9 @@
     │   ├── FetchLimitError             a hard limit was hit (size, decompression, redirects, type)
     │   ├── HttpStatusError             the final answer was not a 2xx (carries the status)
     │   └── NotCachedError              --offline and the cache has no copy
-    └── StoreError                      reserved for the archive
+    ├── StoreError                      the archive could not be read or written
+    │   └── ArchiveUnwritableError      the archive cannot be written at all: the run stops
+    └── RunInterrupted                  SIGINT or SIGTERM stopped a run at a safe point
 
 Each error carries a ``hint`` saying what to do; the CLI prints ``message`` then the hint on the
 same line and exits non-zero, with no traceback.
@@ -20,6 +22,7 @@ same line and exits non-zero, with no traceback.
 from __future__ import annotations
 
 __all__ = [
+    "ArchiveUnwritableError",
     "ExtractError",
     "FetchError",
     "FetchLimitError",
@@ -29,6 +32,7 @@ __all__ = [
     "NotCachedError",
     "RecipeError",
     "RobotsDisallowedError",
+    "RunInterrupted",
     "StoreError",
     "TableNotFoundError",
     "ValueParseError",
@@ -114,6 +118,25 @@ class NotCachedError(FetchError):
 
 
 class StoreError(HarvesterError):
-    """The archive could not be read or written (reserved for the archive)."""
+    """The archive could not be read or written."""
 
     exit_code = 5
+
+
+class ArchiveUnwritableError(StoreError):
+    """The archive cannot be written at all (permissions, no space, a file in the way).
+
+    Unlike a StoreError about one table, this stops the whole run: every later table would
+    fail the same way.
+    """
+
+
+class RunInterrupted(HarvesterError):
+    """A signal stopped a run at a safe point; ``report`` is what was done, already kept."""
+
+    def __init__(self, message: str, *, signal_name: str, report: object, hint: str = "") -> None:
+        super().__init__(message, hint=hint)
+        self.signal_name = signal_name
+        self.report = report
+        # The shell's convention: 128 + the signal number (SIGINT 2 → 130, SIGTERM 15 → 143).
+        self.exit_code = 143 if signal_name == "SIGTERM" else 130

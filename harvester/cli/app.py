@@ -29,7 +29,8 @@ CAUTION = (
 
 EXIT_CODES = """Exit status: 0 success; 1 error, or (harvest) a table failed or was refused; 2 bad
 usage or invalid recipe; 3 table not found or not readable as asked; 4 fetching refused or failed
-(no contact, robots.txt, limits, HTTP); 5 archive error (locked, damaged)."""
+(no contact, robots.txt, limits, HTTP); 5 archive error (locked, damaged, not writable); 130 or
+143 stopped by Ctrl-C or SIGTERM at a safe point, the run report kept."""
 
 app = typer.Typer(
     name="harvester",

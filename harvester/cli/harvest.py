@@ -44,7 +44,8 @@ def harvest_command(
 
     Each table is fetched, read and stored as a new version of its partition, or left as it is
     when nothing changed. A table that fails is reported and touches nothing. Exit status 1 when
-    any table failed or was refused.
+    any table failed or was refused; 5 when the archive cannot be written; 130 (Ctrl-C) or 143
+    (SIGTERM) when a signal stopped the run at a safe point, with the report kept.
 
     Example: harvester harvest recipes/league-players.toml --param site=http://127.0.0.1:8650
     """
@@ -63,6 +64,7 @@ def harvest_command(
             mode="offline" if offline else "refresh" if refresh else "normal",
             every_value=every_value,
             on_outcome=(lambda outcome: typer.echo(outcome.line())) if show else None,
+            stop_on_sigterm=True,
         )
     except HarvesterError as error:
         fail(error)

@@ -11,6 +11,8 @@ fetcher, with its HTTP cache inside the archive. The run never asks what kind of
 from __future__ import annotations
 
 import asyncio
+import contextlib
+import signal
 import uuid
 from collections.abc import Callable
 from contextlib import AsyncExitStack
@@ -20,7 +22,7 @@ import httpx
 from pyarrow import fs as pafs
 
 from harvester.config import configured_contact
-from harvester.errors import FetchError, HarvesterError
+from harvester.errors import ArchiveUnwritableError, HarvesterError, RunInterrupted
 from harvester.extract.table import extract_table, read_page
 from harvester.fetch.capture import Capture
 from harvester.fetch.client import Fetcher, FetchMode
@@ -47,43 +49,104 @@ def harvest(
     every_value: bool = False,
     transport: httpx.AsyncBaseTransport | None = None,
     on_outcome: Callable[[Outcome], None] | None = None,
+    stop_on_sigterm: bool = False,
 ) -> RunReport:
     """Run ``recipe`` for its current parameter values (or every value) into ``archive``.
 
     Pages come from ``source``; without one, from the polite live fetcher that ``live_source``
     builds (``contact``, ``mode`` and ``transport`` are its settings). ``on_outcome`` is called
     with each table's outcome as soon as it is known (a long run shows progress line by line).
+
+    The run report is written however the run ends. Ctrl-C (SIGINT) — and SIGTERM when
+    ``stop_on_sigterm`` is set, which only the main thread can do — stops the run at the next
+    wait for a page (a commit is never cut short), releases the lock and raises RunInterrupted
+    carrying the report. An archive that cannot be written stops the run with
+    ArchiveUnwritableError; every other failure is one table's ``failed`` outcome.
     """
-    with asyncio.Runner() as runner:
-        return runner.run(
-            _harvest(recipe, archive, source, contact, mode, every_value, transport, on_outcome)
+    report = RunReport(uuid.uuid4().hex[:12], recipe.name, archive, datetime.now(UTC))
+    run = _Run(recipe, archive, report, on_outcome)
+    try:
+        with asyncio.Runner() as runner:
+            runner.run(run.go(source, contact, mode, every_value, transport, stop_on_sigterm))
+    except KeyboardInterrupt:
+        report.interrupted_by = "SIGINT"
+    finally:
+        report.finished_at = datetime.now(UTC)
+        with contextlib.suppress(OSError):  # an unwritable archive already said why
+            write_report(archive, report)
+    if report.interrupted_by is not None:
+        raise RunInterrupted(
+            f"interrupted after {report.pages_done} of {report.pages_planned} pages"
+            f" ({report.interrupted_by})",
+            signal_name=report.interrupted_by,
+            report=report,
+            hint=f"run it again to go on; the report is in {archive}/runs/{report.run_id}.jsonl",
+        )
+    return report
+
+
+class _Run:
+    """One harvest in progress: the plan walked page by page, outcomes reported as they come."""
+
+    def __init__(
+        self,
+        recipe: Recipe,
+        archive: str,
+        report: RunReport,
+        on_outcome: Callable[[Outcome], None] | None,
+    ) -> None:
+        self.recipe, self.archive, self.report, self.on_outcome = (
+            recipe,
+            archive,
+            report,
+            on_outcome,
         )
 
+    async def go(
+        self,
+        source: PageSource | None,
+        contact: str | None,
+        mode: FetchMode,
+        every_value: bool,
+        transport: httpx.AsyncBaseTransport | None,
+        stop_on_sigterm: bool,
+    ) -> None:
+        pages = self.recipe.plan(every_value=every_value)
+        self.report.pages_planned = len(pages)
+        task = asyncio.current_task()
+        loop = asyncio.get_running_loop()
+        if stop_on_sigterm and task is not None:
+            loop.add_signal_handler(signal.SIGTERM, self._stop, task)
+        try:
+            async with AsyncExitStack() as stack:
+                # The lock first: an archive that cannot be written stops the run before the
+                # fetcher makes its cache folder inside it.
+                writer = stack.enter_context(ArchiveWriter(self.archive))
+                if source is None:
+                    fetcher = live_source(
+                        self.recipe, self.archive, contact=contact, mode=mode, transport=transport
+                    )
+                    source = await stack.enter_async_context(fetcher)
+                for page in pages:
+                    outcomes = await _harvest_page(self.recipe, page, source, writer, self.report)
+                    self.report.pages_done += 1
+                    for outcome in outcomes:
+                        self._add(outcome)
+        except asyncio.CancelledError:
+            if self.report.interrupted_by != "SIGTERM":
+                raise  # Ctrl-C: asyncio.Runner turns it into KeyboardInterrupt for harvest()
+        finally:
+            if stop_on_sigterm:
+                loop.remove_signal_handler(signal.SIGTERM)
 
-async def _harvest(
-    recipe: Recipe,
-    archive: str,
-    source: PageSource | None,
-    contact: str | None,
-    mode: FetchMode,
-    every_value: bool,
-    transport: httpx.AsyncBaseTransport | None,
-    on_outcome: Callable[[Outcome], None] | None,
-) -> RunReport:
-    report = RunReport(uuid.uuid4().hex[:12], recipe.name, archive, datetime.now(UTC))
-    async with AsyncExitStack() as stack:
-        if source is None:
-            fetcher = live_source(recipe, archive, contact=contact, mode=mode, transport=transport)
-            source = await stack.enter_async_context(fetcher)
-        writer = stack.enter_context(ArchiveWriter(archive))
-        for page in recipe.plan(every_value=every_value):
-            for outcome in await _harvest_page(recipe, page, source, writer, report.run_id):
-                report.outcomes.append(outcome)
-                if on_outcome is not None:
-                    on_outcome(outcome)
-    report.finished_at = datetime.now(UTC)
-    write_report(archive, report)
-    return report
+    def _stop(self, task: asyncio.Task[None]) -> None:
+        self.report.interrupted_by = "SIGTERM"
+        task.cancel()
+
+    def _add(self, outcome: Outcome) -> None:
+        self.report.outcomes.append(outcome)
+        if self.on_outcome is not None:
+            self.on_outcome(outcome)
 
 
 def live_source(
@@ -147,8 +210,9 @@ def _row_source(recipe: Recipe, capture: Capture, selector: str) -> RowSource:
 
 
 async def _harvest_page(
-    recipe: Recipe, page: PlannedPage, source: PageSource, writer: ArchiveWriter, run_id: str
+    recipe: Recipe, page: PlannedPage, source: PageSource, writer: ArchiveWriter, report: RunReport
 ) -> list[Outcome]:
+    """The outcome of each table of one page; only an unwritable archive escapes as an error."""
     partition = [(name, page.parameters.get(name)) for name in recipe.store.partition_by]
     where = dict(partition)
 
@@ -159,9 +223,11 @@ async def _harvest_page(
 
     try:
         capture = await source.capture(page_request(recipe, page))
-    except FetchError as error:
+        parsed = read_page(capture.body, capture.final_url, capture.charset)
+    except HarvesterError as error:
         return [outcome(table, "failed", str(error)) for table in page.tables]
-    parsed = read_page(capture.body, capture.final_url, capture.charset)
+    except Exception as error:
+        return [outcome(table, "failed", _unexpected(error)) for table in page.tables]
     outcomes = []
     for name in page.tables:
         rule = recipe.table_rule(name)
@@ -174,17 +240,31 @@ async def _harvest_page(
                 name,
                 partition,
                 data,
-                provenance=_footer_provenance(recipe, capture, run_id, rule.key),
+                provenance=_footer_provenance(recipe, capture, report.run_id, rule.key),
                 key=rule.key,
                 drift_policy=recipe.store.drift,
                 min_rows=recipe.store.min_rows,
                 max_rows=recipe.store.max_rows,
             )
+        except ArchiveUnwritableError:
+            raise  # every later table would fail the same way
         except HarvesterError as error:
             outcomes.append(outcome(name, "failed", str(error)))
             continue
+        except Exception as error:
+            outcomes.append(outcome(name, "failed", _unexpected(error)))
+            continue
         outcomes.append(outcome(name, result.status, result.message, result.rows, result.version))
     return outcomes
+
+
+def _unexpected(error: Exception) -> str:
+    """One line for a failure no check foresaw (a bug of ours, reported rather than fatal)."""
+    text = " ".join(str(error).split())[:300]
+    return (
+        f"unexpected {type(error).__name__}: {text} — this is a harvester bug; please report it"
+        " with the page"
+    )
 
 
 def _footer_provenance(

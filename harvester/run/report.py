@@ -57,6 +57,9 @@ class RunReport:
     started_at: datetime
     finished_at: datetime | None = None
     outcomes: list[Outcome] = field(default_factory=list)
+    pages_planned: int = 0
+    pages_done: int = 0
+    interrupted_by: str | None = None  # "SIGINT" or "SIGTERM" when a signal stopped the run
 
     @property
     def failed(self) -> bool:
@@ -72,6 +75,9 @@ class RunReport:
             "started_at": rfc3339(self.started_at),
             "finished_at": rfc3339(self.finished_at) if self.finished_at else None,
             "failed": self.failed,
+            "pages_planned": self.pages_planned,
+            "pages_done": self.pages_done,
+            "interrupted_by": self.interrupted_by,
         }
         lines = [json.dumps(header)]
         lines += [json.dumps(asdict(outcome), ensure_ascii=False) for outcome in self.outcomes]

@@ -31,7 +31,7 @@ import pyarrow as pa
 import pyarrow.fs as pafs
 import pyarrow.parquet as pq
 
-from harvester.errors import StoreError
+from harvester.errors import ArchiveUnwritableError, StoreError
 from harvester.store.contract import (
     COMMITTED_AT_KEY,
     DATA_SHA256_KEY,
@@ -105,7 +105,14 @@ class ArchiveWriter:
         """Set on enter when a stale lock was taken over: says whose."""
 
     def __enter__(self) -> ArchiveWriter:
-        self.took_over = self._lock.acquire()
+        try:
+            self.took_over = self._lock.acquire()
+        except OSError as exc:  # a read-only disk, a plain file in the way, a .lock folder
+            raise ArchiveUnwritableError(
+                f"archive {self.root}: cannot take its lock ({_why(exc)})",
+                hint="give an archive folder you can write to (--archive); remove anything in the"
+                " way",
+            ) from exc
         self._held = True
         return self
 
@@ -168,9 +175,15 @@ class ArchiveWriter:
             provenance, arranged, dataset, table, part, version, committed_at, key, where
         )
         meta = {DATA_SHA256_KEY: sha, COMMITTED_AT_KEY: committed_at, PROVENANCE_KEY: body}
-        path = self._publish(
-            folder, version, arranged.replace_schema_metadata(meta), fresh=not latest
-        )
+        try:
+            path = self._publish(
+                folder, version, arranged.replace_schema_metadata(meta), fresh=not latest
+            )
+        except OSError as exc:  # no space, no permission: nothing was published
+            raise ArchiveUnwritableError(
+                f"{folder}: cannot write version {version} ({_why(exc)}); nothing was published",
+                hint="free disk space or fix the folder's permissions, then run again",
+            ) from exc
         message = f"{where}: version {version} written, {arranged.num_rows} rows"
         if drifted and drift_policy == "warn":
             message += f"; {report.summary()} (drift policy warn)"
@@ -244,6 +257,12 @@ class ArchiveWriter:
             if on_disk is not None:
                 _fsync(on_disk)
         return final
+
+
+def _why(exc: OSError) -> str:
+    """An OSError in a few words, with the path it names when it names one."""
+    reason = exc.strerror or str(exc)
+    return f"{reason}: {exc.filename}" if exc.filename else reason
 
 
 def _fsync(path: str) -> None:

@@ -5,6 +5,11 @@ Against the real demo server on 127.0.0.1.
 
 from __future__ import annotations
 
+import json
+import os
+import signal
+import subprocess
+import sys
 from collections.abc import Callable
 from pathlib import Path
 
@@ -70,3 +75,34 @@ def test_cache_modes_reach_the_fetcher(demo_site: DemoServer, tmp_path: Path, fl
         assert requests == []
     else:
         assert [record.status for record in requests] == [304]
+
+
+@pytest.mark.parametrize(("sent", "status"), [(signal.SIGTERM, 143), (signal.SIGINT, 130)])
+def test_a_signal_stops_the_run_at_a_safe_point_and_keeps_the_report(
+    demo_site_factory: Factory, tmp_path: Path, sent: signal.Signals, status: int
+) -> None:
+    # A real process, stopped by a real signal once its first table is reported; the site's
+    # Crawl-delay of 0.5 s keeps 14 more pages to go.
+    site = demo_site_factory(crawl_delay=0.5)
+    archive = tmp_path / "archive"
+    script = Path(sys.executable).with_name("harvester")
+    args = [str(script), "harvest", str(RECIPES / "league-standings.toml"), "--all"]
+    args += ["--param", f"site={site.base_url}", "--archive", str(archive)]
+    env = {**os.environ, "HARVESTER_CONFIG": str(tmp_path / "none.toml")}
+    with subprocess.Popen(args, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                          env=env) as process:  # fmt: skip
+        assert process.stdout is not None and process.stderr is not None
+        first = process.stdout.readline()
+        process.send_signal(sent)
+        rest, err = process.communicate(timeout=60)
+    assert first.startswith(("new\t", "failed\t")), first + err
+    assert process.returncode == status, err  # the shell's 128 + signal number
+    assert err.count("\n") == 1 and "interrupted after " in err
+    done = int(err.split("interrupted after ", 1)[1].split(" ", 1)[0])
+    assert f"of 15 pages ({sent.name})" in err and 1 <= done < 15
+    # Every page counted as done has its line; the report says the same, and the lock is gone.
+    assert len([first, *rest.splitlines()]) == done
+    (report,) = (archive / "runs").glob("*.jsonl")
+    header = json.loads(report.read_text().splitlines()[0])
+    assert header["interrupted_by"] == sent.name and header["pages_done"] == done
+    assert not (archive / ".lock").exists()

@@ -11,10 +11,11 @@ from pathlib import Path
 from urllib.parse import urlsplit
 
 import pyarrow.parquet as pq
+import pytest
 
 from harvester import PageRequest, PageSource, harvest, load_recipe
 from harvester.demo.tour import demo_recipe_dir, write_demo_site
-from harvester.errors import FetchError
+from harvester.errors import ArchiveUnwritableError, FetchError
 from harvester.fetch.capture import Capture
 from harvester.fetch.client import Fetcher
 from harvester.fetch.identity import Identity
@@ -72,3 +73,46 @@ def test_a_page_the_source_lacks_fails_only_its_tables(tmp_path: Path) -> None:
     assert statuses[2025] == "failed" and statuses[2026] == "new" and statuses[2024] == "new"
     failed = next(outcome for outcome in report.outcomes if outcome.status == "failed")
     assert "not in the folder" in failed.message and "seasons/2025/standings.html" in failed.message
+
+
+class BrokenSource(FolderSource):
+    """Like FolderSource, but one page makes the source itself fail in a way nobody foresaw."""
+
+    async def capture(self, request: PageRequest) -> Capture:
+        if "/2025/" in request.url:
+            raise RuntimeError("decoder state\nlost")
+        return await super().capture(request)
+
+
+def test_an_unforeseen_failure_is_one_pages_failed_line_and_the_run_goes_on(
+    tmp_path: Path,
+) -> None:
+    site = tmp_path / "site"
+    write_demo_site(site)
+    recipe = load_recipe(
+        demo_recipe_dir() / "league-standings.toml", {"site": "http://127.0.0.1:9"}
+    )
+    archive = tmp_path / "archive"
+    report = harvest(recipe, archive=str(archive), source=BrokenSource(site), every_value=True)
+    statuses = {outcome.partition["season"]: outcome.status for outcome in report.outcomes}
+    assert statuses[2025] == "failed" and statuses[2024] == "new" and statuses[2026] == "new"
+    failed = next(outcome for outcome in report.outcomes if outcome.status == "failed")
+    assert failed.message.startswith("unexpected RuntimeError: decoder state lost")
+    assert "\n" not in failed.message
+    assert (archive / "runs" / f"{report.run_id}.jsonl").is_file()  # the report is kept
+    assert report.pages_done == report.pages_planned == 15
+
+
+def test_an_archive_that_cannot_be_written_stops_the_run_with_one_line(tmp_path: Path) -> None:
+    site = tmp_path / "site"
+    write_demo_site(site)
+    in_the_way = tmp_path / "plain-file"
+    in_the_way.write_text("not a folder")
+    recipe = load_recipe(
+        demo_recipe_dir() / "league-standings.toml", {"site": "http://127.0.0.1:9"}
+    )
+    with pytest.raises(ArchiveUnwritableError) as caught:
+        harvest(recipe, archive=str(in_the_way / "archive"), source=FolderSource(site))
+    assert "cannot take its lock" in str(caught.value) and "\n" not in str(caught.value)
+    assert caught.value.exit_code == 5
+    assert in_the_way.read_text() == "not a folder"  # nothing lost
