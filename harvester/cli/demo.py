@@ -91,8 +91,10 @@ def _serve_demo(port: int, crawl_delay: float) -> None:
 
     try:
         site = DemoServer(port=port, crawl_delay=crawl_delay).start()
-    except (HarvesterError, OSError) as error:
-        usage(f"cannot serve on 127.0.0.1:{port} ({error}) — pick another --port")
+    except HarvesterError as error:  # an option the server refuses: its message names it
+        fail(error)
+    except OSError as error:
+        usage(f"cannot serve on 127.0.0.1:{port} ({error.strerror}) — pick another --port")
     typer.echo(
         f"demo site on {site.base_url} (robots.txt Crawl-delay {crawl_delay:g} s); Ctrl-C stops"
     )

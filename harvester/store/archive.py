@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import re
 from collections.abc import Iterable, Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import datetime
 from typing import TYPE_CHECKING
 
@@ -59,13 +59,24 @@ class VersionInfo:
     rows: int
     committed_at: datetime  # aware, UTC
     data_sha256: str
+    recorded_partition: Mapping[str, object] = field(default_factory=dict, compare=False)
+    """The partition as the harvest recorded it in the footer (integers stay integers)."""
 
     def to_dict(self) -> dict[str, object]:
-        """The version as plain JSON values (``committed_at`` as RFC 3339 UTC)."""
+        """The version as plain JSON values (``committed_at`` as RFC 3339 UTC).
+
+        Partition values are written as the harvest recorded them — ``2026``, not ``"2026"``, as
+        in the run reports — when the footer's record agrees with the folder, else as text.
+        """
+        partition: dict[str, object] = {}
+        for key, value in self.partition:
+            recorded = self.recorded_partition.get(key)
+            same = recorded is not None and not isinstance(recorded, bool)
+            partition[key] = recorded if same and str(recorded) == value else value
         return {
             "dataset": self.dataset,
             "table": self.table,
-            "partition": dict(self.partition),
+            "partition": partition,
             "version": self.version,
             "rows": self.rows,
             "committed_at": rfc3339(self.committed_at),
@@ -267,6 +278,7 @@ class Archive:
             rows=meta.num_rows,
             committed_at=committed_at,
             data_sha256=kv[DATA_SHA256_KEY.encode()].decode(),
+            recorded_partition=partition_record(kv, item.shown),
         )
 
     def _read_file(self, item: _Found) -> VersionRead:

@@ -40,7 +40,7 @@ def partition_record(metadata: Mapping[bytes, bytes] | None, shown: str) -> dict
 
 
 def key_type(key: str, provenance: list[dict[str, Any]]) -> pa.DataType:
-    """int64 when every file's provenance gives an int for ``key`` (STORE.md), else string."""
+    """int64 when every file's provenance gives an int for ``key`` (docs/archive.md), else text."""
 
     def is_int(value: object) -> bool:
         return isinstance(value, int) and not isinstance(value, bool)  # JSON true is not a number

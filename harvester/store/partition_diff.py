@@ -15,7 +15,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
-from harvester.errors import StoreError
+from harvester.errors import HarvesterError, StoreError
 from harvester.store.archive import Archive, VersionInfo
 from harvester.store.contract import StoredPartition, damaged, recorded_key
 from harvester.store.layout import open_root, show_partition
@@ -138,9 +138,10 @@ def _pick_versions(
         return by_number[old], newer
     earlier = [info for info in history if info.version < newer.version]
     if not earlier:
-        raise StoreError(
+        # Not an archive fault: the archive is fine, there is simply nothing older yet.
+        raise HarvesterError(
             f"{name} has no version before {newer.version} to compare it with (versions: {listed})",
-            hint="pass --from N to choose the other version",
+            hint="a diff needs two versions; pass --from N to choose another one",
         )
     return earlier[-1], newer
 

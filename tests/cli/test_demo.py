@@ -59,3 +59,10 @@ def test_demo_serve_runs_a_loopback_site_until_stopped() -> None:
             process.send_signal(signal.SIGINT)
             process.wait(timeout=10)
     assert process.returncode == 0
+
+
+def test_a_bad_crawl_delay_is_named_not_blamed_on_the_port() -> None:
+    result = CliRunner().invoke(app, ["demo", "--serve", "--crawl-delay", "-5"])
+    assert result.exit_code != 0
+    assert "crawl_delay = -5" in result.stderr and "--port" not in result.stderr
+    assert result.stderr.count("\n") == 1

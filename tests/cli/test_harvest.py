@@ -106,3 +106,18 @@ def test_a_signal_stops_the_run_at_a_safe_point_and_keeps_the_report(
     header = json.loads(report.read_text().splitlines()[0])
     assert header["interrupted_by"] == sent.name and header["pages_done"] == done
     assert not (archive / ".lock").exists()
+
+
+def test_versions_json_writes_partition_values_as_the_run_report_does(
+    demo_site: DemoServer, tmp_path: Path
+) -> None:
+    args = ["harvest", str(RECIPES / "league-standings.toml"), "--archive", str(tmp_path)]
+    assert CliRunner().invoke(app, [*args, "--param", f"site={demo_site.base_url}"]).exit_code == 0
+    (report,) = (tmp_path / "runs").glob("*.jsonl")
+    outcome = json.loads(report.read_text().splitlines()[1])
+    listed = CliRunner().invoke(
+        app, ["versions", "league-standings", "--archive", str(tmp_path), "--format", "json"]
+    )
+    (version,) = json.loads(listed.stdout)
+    assert outcome["partition"] == {"season": 2026}  # a JSON number in the run report …
+    assert version["partition"] == {"season": 2026}  # … and in the version listing alike

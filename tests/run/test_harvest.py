@@ -1,4 +1,4 @@
-"""The first end-to-end path: recipe → polite fetch → extract → versioned archive (issue 4 §10).
+"""The first end-to-end path: recipe → polite fetch → extract → versioned archive.
 
 Against the real demo server on 127.0.0.1; expected values come from the league model and the
 server's request log, never from the code under test.

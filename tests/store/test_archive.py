@@ -222,7 +222,7 @@ def test_read_gives_the_latest_version_of_each_partition(root: Path) -> None:
         (2025, 2, "Merek Olv", 23, 7),
         (2025, 2, "Sten Araby", 4, 1),
     ]
-    # Data columns, then provenance columns, then the partition key, then version (STORE.md).
+    # Data columns, then provenance columns, then the partition key, then version (docs/archive.md).
     assert table.column_names == ["player", "goals", "assists", *PROVENANCE, "season", "version"]
     assert table.schema.field("version").type == pa.int32()
     assert table.schema.field("_captured_at").type == UTC_US
@@ -307,7 +307,7 @@ def test_incompatible_column_types_are_an_error(tmp_path: Path) -> None:
 
 
 def test_partition_columns_are_typed_from_the_provenance(tmp_path: Path) -> None:
-    # STORE.md: int64 when every file's provenance gives an integer for the key, else string.
+    # docs/archive.md: int64 when every file's provenance gives an integer for the key, else string.
     write_version(tmp_path, "ints", [("season", 2024), ("conference", "north")], 1, {"x": [1]})
     write_version(tmp_path, "ints", [("season", 2025), ("conference", "south")], 1, {"x": [2]})
     ints = Archive(str(tmp_path)).read(DS, "ints", where={"season": 2025, "conference": "south"})

@@ -296,7 +296,7 @@ def test_partition_values_are_percent_decoded_by_duckdb_polars_and_archive(
             root, "clubs", "roster", [("club", club)], 1, {"i": [i]}, "2026-01-10T08:00:00.000000Z"
         )
     monkeypatch.chdir(tmp_path)
-    # The folder names are the RFC 3986 percent-encoding (STORE.md): checked, not assumed.
+    # The folder names are the RFC 3986 percent-encoding (docs/archive.md): checked, not assumed.
     assert (root / "tables/clubs/roster/club=Kossa%2FUlmby").is_dir()
     assert (root / "tables/clubs/roster/club=%C3%86r%C3%B8vik").is_dir()
     expected = [(i, club) for i, club in enumerate(clubs)]
@@ -380,7 +380,7 @@ def test_partition_key_types_with_and_without_declared_types(
     assert guessed("by_club")["club"].to_list() == [42, 107]
     assert guessed("by_round")["round"].dtype == pl.Date
 
-    # Archive.read types a key int64 only when every file's provenance gives an integer (STORE.md).
+    # Archive.read types a key int64 only when every file's provenance gives an integer (docs/archive.md).
     archive = Archive(str(root))
     by_season = archive.read("d", "by_season")
     assert by_season.schema.field("season").type == pa.int64()
