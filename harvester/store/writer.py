@@ -187,6 +187,10 @@ class ArchiveWriter:
         message = f"{where}: version {version} written, {arranged.num_rows} rows"
         if drifted and drift_policy == "warn":
             message += f"; {report.summary()} (drift policy warn)"
+        elif report.row_problems:
+            # Under accept, column changes pass quietly, but a row bound the recipe set is
+            # never passed over in silence.
+            message += f"; {'; '.join(report.row_problems)} (drift policy accept)"
         return result("new", version, message, path=path, drift=shown)
 
     def _check_can_commit(self, drift_policy: str) -> None:

@@ -272,11 +272,16 @@ def test_row_bounds_count_as_drift_even_for_a_first_version(tmp_path: Path) -> N
     with ArchiveWriter(str(tmp_path)) as writer:
         refused = commit(writer, standings(), min_rows=4)
         warned = commit(writer, standings(), max_rows=2, drift_policy="warn")
+    with ArchiveWriter(str(tmp_path / "other")) as writer:
+        accepted = commit(writer, standings(), min_rows=10, drift_policy="accept")
     assert (refused.status, refused.version, refused.path) == ("refused", 0, None)
     assert refused.drift is not None and refused.drift.row_problems
     assert "3 rows" in refused.message and "nothing written" in refused.message
     assert (warned.status, warned.version) == ("new", 1)
     assert "3 rows" in warned.message and "max_rows 2" in warned.message
+    # Under accept the bound still shows in the table's line (docs/recipes.md: an error).
+    assert (accepted.status, accepted.version) == ("new", 1)
+    assert accepted.message.endswith("; 3 rows < min_rows 10 (drift policy accept)")
 
 
 def test_debris_of_a_crashed_commit_is_replaced_by_the_next_version(tmp_path: Path) -> None:
