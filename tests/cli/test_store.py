@@ -1,6 +1,6 @@
 """`harvester versions` and `harvester diff`, run on small archives written here by hand.
 
-The archives are laid out exactly as the archive contract (docs/archive.md) says, with pyarrow alone:
+The archives are laid out exactly as the archive contract (docs/archive.md) says, with pyarrow:
 ``tables/<dataset>/<table>/<key>=<value>/version=<n>/part-0.parquet``, values percent-encoded
 (RFC 3986 §2.1: "/" is %2F) and null written as ``__HIVE_DEFAULT_PARTITION__`` (pyarrow
 HivePartitioning's null_fallback), footers holding harvester.data_sha256 / committed_at /

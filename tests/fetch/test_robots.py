@@ -8,7 +8,6 @@ REFERENCES §1.9) belongs to the fetcher, which owns the cache, and is not teste
 
 from __future__ import annotations
 
-import time
 import tracemalloc
 from pathlib import Path
 
@@ -380,12 +379,12 @@ def test_disallow_star_loses_to_any_matching_allow() -> None:
     assert not allowed(robots, "/private")
 
 
-def test_hostile_wildcard_pattern_is_fast() -> None:
-    # §3: content is untrusted; a backtracking regex would take exponential time here.
+def test_hostile_wildcard_pattern_is_decided() -> None:
+    # §3: content is untrusted; a backtracking regex would take exponential time here (the
+    # time it takes is measured in bench/robots_bench.py, not asserted).
     robots = parse("User-agent: *\nDisallow: /" + "*a" * 40 + "*b$\n")
-    started = time.perf_counter()
     assert allowed(robots, "/" + "a" * 20_000 + "c")
-    assert time.perf_counter() - started < 1.0
+    assert not allowed(robots, "/" + "a" * 200 + "b")
 
 
 # --- percent-encoding (§2.2.2 Figure 4, REFERENCES §1.4) ---------------------------------------
@@ -569,23 +568,20 @@ def test_limit_counts_utf8_octets_of_text_input() -> None:
 
 
 @pytest.mark.parametrize("as_text", [False, True])
-def test_ten_megabyte_file_is_quick_and_small(as_text: bool) -> None:
+def test_ten_megabyte_file_is_read_in_little_memory(as_text: bool) -> None:
     # 10 MiB of rules. Reading only the first 512,000 octets must not even copy the whole input
     # once, so the peak stays below the input's own size (as rule objects it would be >100 MB).
     data = b"User-agent: *\n" + b"Disallow: /0123456789/abcdefghij\n" * (10 * 2**20 // 33)
     data += b"Disallow: /last\n"
     content: str | bytes = data.decode("ascii") if as_text else data
     tracemalloc.start()
-    started = time.perf_counter()
     try:
         robots = parse(content)
         assert allowed(robots, "/last")  # past the limit
-        elapsed = time.perf_counter() - started
         peak = tracemalloc.get_traced_memory()[1]
     finally:
         tracemalloc.stop()
-    assert elapsed < 3.0
-    assert peak < 10 * 2**20
+    assert peak < 10 * 2**20  # memory, not time: bench/robots_bench.py measures the time
 
 
 # --- properties ---------------------------------------------------------------------------------

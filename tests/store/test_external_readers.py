@@ -380,7 +380,7 @@ def test_partition_key_types_with_and_without_declared_types(
     assert guessed("by_club")["club"].to_list() == [42, 107]
     assert guessed("by_round")["round"].dtype == pl.Date
 
-    # Archive.read types a key int64 only when every file's provenance gives an integer (docs/archive.md).
+    # Archive.read types a key int64 only when every file's provenance gives an integer.
     archive = Archive(str(root))
     by_season = archive.read("d", "by_season")
     assert by_season.schema.field("season").type == pa.int64()
