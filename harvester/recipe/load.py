@@ -61,6 +61,11 @@ def load_recipe(path: str | Path, overrides: Mapping[str, str] | None = None) ->
         data.get("fetch", {}), where.at("fetch"), fetch_readers, home="[fetch]"
     )
     fetch = FetchSettings(**fetch_found)
+    if fetch.delay is not None and fetch.delay > fetch.max_wait:
+        where.at("fetch").at("delay").fail(
+            f"is {fetch.delay:g} s, longer than max_wait ({fetch.max_wait:g} s), the longest wait",
+            "lower delay, or raise max_wait under [fetch] if the site really asks for that",
+        )
     tables = _read_tables(data.get("tables"), where.at("tables"), fetch.url, names)
     store = _read_store(data.get("store", {}), where.at("store"), names, tables, fetch.url)
     site, parameters = _apply_overrides(overrides or {}, about["site"], parameters, singles, where)

@@ -54,6 +54,7 @@ class FetchSettings:
     past: PastMode = "live"
     capture_near: str | None = None  # template of the date a web-archive capture should be near
     immutable_before: int | None = None  # parameter values below this never change
+    max_wait: float = 600.0  # seconds: the longest single wait (Crawl-delay, Retry-After, back-off)
 
 
 @dataclass(frozen=True)

@@ -128,17 +128,22 @@ def integer(example: str, *, minimum: int | None = None) -> Reader:
     return read
 
 
-def number(example: str) -> Reader:
-    """A finite integer or float >= 0, returned as a float."""
+def number(example: str, *, maximum: float | None = None, positive: bool = False) -> Reader:
+    """A finite integer or float >= 0 (> 0 when ``positive``), at most ``maximum``; a float."""
 
     def read(value: object, where: Where) -> float:
+        bound = "> 0" if positive else ">= 0"
+        if maximum is not None:
+            bound += f" and <= {maximum:g}"
         if (
             isinstance(value, bool)
             or not isinstance(value, int | float)
             or not math.isfinite(value)
             or value < 0
+            or (positive and value == 0)
+            or (maximum is not None and value > maximum)
         ):
-            where.expected("a number >= 0", value, example)
+            where.expected(f"a number {bound}", value, example)
         return float(value)
 
     return read

@@ -29,9 +29,12 @@ from harvester.recipe.readers import (
 )
 from harvester.store.contract import DATASET_NAME, TABLE_NAME
 
+MAX_WAIT_LIMIT = 86_400.0  # a day: no single wait of a run may be set longer (no source)
+
 __all__ = [
     "COLUMN_READERS",
     "FETCH_READERS",
+    "MAX_WAIT_LIMIT",
     "RECIPE_READERS",
     "STORE_READERS",
     "TABLE_READERS",
@@ -182,7 +185,8 @@ RECIPE_READERS: dict[str, Reader] = {
 }
 FETCH_READERS: dict[str, Reader] = {
     "url": text('"{site}/seasons/{season}/players.html"', required=True),
-    "delay": number("2.0"),
+    "delay": number("2.0", maximum=MAX_WAIT_LIMIT),
+    "max_wait": number("600", maximum=MAX_WAIT_LIMIT, positive=True),
     "past": choice(("live", "capture", "live-then-capture")),
     "capture_near": text('"{season}-06-30"', required=True),
     "immutable_before": integer("2025"),

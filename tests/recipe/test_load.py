@@ -624,8 +624,13 @@ CASES = [
     ("template_relative.toml", "fetch.url", "must start with {site}/ or http:// or https://", ""),
     ("template_space.toml", "fetch.url", "contains a space", "%20"),
     ("table_url_unknown_name.toml", "tables.players.url", "unknown placeholder {club}", "{season}"),
-    ("delay_negative.toml", "fetch.delay", "must be a number >= 0, got -1", "delay = 2.0"),
-    ("delay_inf.toml", "fetch.delay", "must be a number >= 0, got inf", ""),
+    (
+        "delay_negative.toml",
+        "fetch.delay",
+        "must be a number >= 0 and <= 86400, got -1",
+        "delay = 2.0",
+    ),
+    ("delay_inf.toml", "fetch.delay", "must be a number >= 0 and <= 86400, got inf", ""),
     ("delay_text.toml", "fetch.delay", 'got "2s"', ""),
     (
         "past_bad.toml",
@@ -903,3 +908,36 @@ def test_a_plan_too_large_to_build_is_refused_after_counting(tmp_path: Path) -> 
         recipe.plan(every_value=True)
     assert "plans 100,000,000 combinations (10,000 league × 10,000 season)" in str(caught.value)
     assert "--param" in caught.value.hint
+
+
+@pytest.mark.parametrize(
+    ("fetch", "key", "message"),
+    [
+        ("delay = 1e12", "fetch.delay", "must be a number >= 0 and <= 86400, got 1000000000000.0"),
+        ("max_wait = 0", "fetch.max_wait", "must be a number > 0 and <= 86400, got 0"),
+        ("max_wait = inf", "fetch.max_wait", "got inf"),
+        ("delay = 700", "fetch.delay", "is 700 s, longer than max_wait (600 s)"),
+        ("delay = 700\nmax_wait = 60", "fetch.delay", "longer than max_wait (60 s)"),
+    ],
+)
+def test_absurd_waits_are_recipe_errors(tmp_path: Path, fetch: str, key: str, message: str) -> None:
+    path = tmp_path / "r.toml"
+    path.write_text(
+        '[recipe]\nname = "r"\nsite = "http://127.0.0.1:8650"\n'
+        f'[fetch]\nurl = "{{site}}/p.html"\n{fetch}\n[tables.t]\nselect = "table"\n',
+        encoding="utf-8",
+    )
+    with pytest.raises(RecipeError) as caught:
+        load_recipe(path)
+    assert caught.value.key == key and message in caught.value.message
+
+
+def test_a_long_delay_is_accepted_under_a_raised_max_wait(tmp_path: Path) -> None:
+    path = tmp_path / "r.toml"
+    path.write_text(
+        '[recipe]\nname = "r"\nsite = "http://127.0.0.1:8650"\n'
+        '[fetch]\nurl = "{site}/p.html"\ndelay = 700\nmax_wait = 900\n[tables.t]\nselect = "t"\n',
+        encoding="utf-8",
+    )
+    fetch = load_recipe(path).fetch
+    assert (fetch.delay, fetch.max_wait) == (700.0, 900.0)
