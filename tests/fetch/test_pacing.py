@@ -12,6 +12,7 @@ import pytest
 
 from harvester.errors import HostPausedError
 from harvester.fetch.pacing import HostPacer, host_key
+from harvester.fetch.waits import WaitNotice
 
 
 class FakeClock:
@@ -141,6 +142,45 @@ def test_raised_interval_decays_back_to_the_base_with_successes() -> None:
     pace.succeeded(A)
     pace.succeeded(A)
     assert pace.interval(A) == 1.0
+
+
+def test_back_off_never_raises_the_interval_past_the_cap() -> None:
+    pace = pacer(FakeClock(), jitter=0.0)
+    pace.set_interval(A, 1.0)
+    for _ in range(5):
+        pace.back_off(A, None, cap=3.0)
+    assert pace.interval(A) == 3.0
+
+
+def test_a_long_interval_is_announced_once_not_before_every_request() -> None:
+    clock = FakeClock()
+    notices: list[WaitNotice] = []
+    pace = HostPacer(clock=clock, sleep=clock.sleep, seed=1, jitter=0.0, on_wait=notices.append)
+    pace.set_interval(A, 10.0)
+
+    async def three() -> None:
+        for _ in range(3):
+            async with pace.slot(A):
+                pass
+
+    run(three())
+    reason = "an interval of 10 s between requests (the site's or recipe's)"
+    assert notices == [WaitNotice("http://127.0.0.1:8650", 10.0, reason)]
+
+
+def test_short_waits_are_not_announced() -> None:
+    clock = FakeClock()
+    notices: list[WaitNotice] = []
+    pace = HostPacer(clock=clock, sleep=clock.sleep, seed=1, jitter=0.0, on_wait=notices.append)
+    pace.set_interval(A, 5.0)  # exactly five seconds is the ordinary pace, not a long wait
+
+    async def two() -> None:
+        for _ in range(2):
+            async with pace.slot(A):
+                pass
+
+    run(two())
+    assert notices == []
 
 
 def test_circuit_breaker_pauses_only_the_failing_host() -> None:
