@@ -27,6 +27,7 @@ from harvester.fetch.pacing import DEFAULT_INTERVAL, HostPacer, describe, host_k
 from harvester.fetch.robots import RobotsTxt
 from harvester.fetch.robots_gate import RobotsGate
 from harvester.fetch.source import PageRequest
+from harvester.fetch.targets import redact, redirect_problem, url_problem
 from harvester.fetch.transfer import Answer, Transient, now
 from harvester.fetch.waits import WaitAnnouncer, cap_hint, log_wait, seconds_text
 
@@ -131,7 +132,7 @@ class Fetcher:
         ``immutable`` marks a page that never changes (a past season): once cached it is
         always fresh. Raises a FetchError subclass for anything that is not a usable page.
         """
-        self._check_scheme(url)
+        self._check_target(url)
         request_headers = dict(self.identity.headers())
         lookup = (
             self.cache.lookup("GET", url, request_headers, now())
@@ -193,15 +194,19 @@ class Fetcher:
 
     # -- steps -------------------------------------------------------------------------
 
-    def _check_scheme(self, url: str) -> None:
+    def _check_target(self, url: str) -> None:
+        """Refuse a URL of another scheme, a malformed one, or one carrying credentials."""
         scheme = urlsplit(url).scheme.lower()
         if scheme not in self.limits.schemes:
             allowed = " or ".join(f"{name}://" for name in self.limits.schemes)
             raise FetchLimitError(
                 f"scheme {scheme or '(none)'!r} is not fetched",
-                url=url,
+                url=redact(url),
                 hint=f"use a URL starting with {allowed}",
             )
+        problem = url_problem(url)
+        if problem is not None:
+            raise FetchLimitError(problem, url=redact(url), hint="fix the URL")
 
     def _offline(self, url: str, request_headers: dict[str, str]) -> Capture:
         stored = (
@@ -303,7 +308,7 @@ class Fetcher:
     async def _follow(
         self, url: str, conditional: dict[str, str]
     ) -> tuple[Answer, tuple[str, ...]]:
-        """GET with redirects followed by hand, each hop robots-checked and paced."""
+        """GET with redirects followed by hand, each hop checked, robots-checked and paced."""
         current, seen = url, {url}
         hops: list[str] = []
         for hop in range(self.limits.max_redirects + 1):
@@ -314,8 +319,7 @@ class Fetcher:
             location = header(answer.headers, "location")
             if answer.status not in REDIRECTS or not location:
                 return answer, tuple(hops)
-            target = urljoin(current, location.strip())
-            self._check_scheme(target)
+            target = self._redirect_target(url, current, location.strip())
             if target in seen:
                 raise FetchLimitError(
                     f"redirect loop: {' → '.join([*hops, current, target])}",
@@ -330,3 +334,20 @@ class Fetcher:
             url=url,
             hint="the site redirects too often; check the URL",
         )
+
+    def _redirect_target(self, url: str, current: str, location: str) -> str:
+        """Where a redirect leads; refused (not retried) when it may not be followed."""
+        target = urljoin(current, location)
+        scheme = urlsplit(target).scheme.lower()
+        problem = (
+            f"scheme {scheme!r} is not fetched"
+            if scheme not in self.limits.schemes
+            else redirect_problem(current, target)
+        )
+        if problem is not None:
+            raise FetchLimitError(
+                f"redirect to {redact(target)} refused: {problem}",
+                url=url,
+                hint="harvester does not follow such redirects; report it to the site",
+            )
+        return target

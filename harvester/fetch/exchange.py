@@ -24,6 +24,7 @@ from harvester.fetch.httpdate import parse_http_date, parse_retry_after
 from harvester.fetch.limits import FetchLimits
 from harvester.fetch.pacing import HostKey, HostPacer, describe, host_key
 from harvester.fetch.robots_gate import RobotsAnswer
+from harvester.fetch.targets import redact, redirect_problem
 from harvester.fetch.transfer import Answer, Transient, get
 from harvester.fetch.waits import cap_hint, seconds_text
 
@@ -178,7 +179,11 @@ class PacedSender:
             return f"robots.txt redirects to an invalid Location {location!r} ({exc})", current
         scheme = urlsplit(target).scheme.lower()
         if scheme not in self.limits.schemes:
-            return f"robots.txt redirects to a {scheme}: URL ({target})", target
+            shown = redact(target)
+            return f"robots.txt redirects to a {scheme}: URL ({shown})", target
         if target in seen:
             return "robots.txt redirects in a loop", target
+        problem = redirect_problem(current, target)
+        if problem is not None:
+            return f"robots.txt redirect to {redact(target)} refused: {problem}", target
         return "", target

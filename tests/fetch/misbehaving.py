@@ -3,7 +3,9 @@
 ``ScriptedSite`` is ``harvester.demo.loopback.LoopbackServer`` (the real threaded HTTP server on
 127.0.0.1, with its request log and pacing count) serving ``ScriptedRoutes``: each path answers
 with the replies listed for it, in order, the last one repeated; ``/robots.txt`` defaults to a
-file naming the site's Crawl-delay.
+file naming the site's Crawl-delay. ``LoopbackOnly`` is a real transport that refuses to open a
+connection anywhere but 127.0.0.1, so a test of a refused redirect cannot reach another address
+even when the code under test is wrong.
 """
 
 from __future__ import annotations
@@ -11,10 +13,12 @@ from __future__ import annotations
 import threading
 from collections.abc import Mapping, Sequence
 
-from harvester.demo.loopback import LoopbackServer, Request
+import httpx
+
+from harvester.demo.loopback import LOOPBACK, LoopbackServer, Request
 from harvester.demo.replies import HTML, Reply, error_reply, page
 
-__all__ = ["ScriptedRoutes", "ScriptedSite", "html", "redirect"]
+__all__ = ["LoopbackOnly", "ScriptedRoutes", "ScriptedSite", "html", "redirect"]
 
 
 def html(body: str = "<p>ok</p>", **headers: str) -> Reply:
@@ -61,3 +65,18 @@ class ScriptedSite(LoopbackServer[ScriptedRoutes]):
             robots_txt if robots_txt is not None else f"User-agent: *\nCrawl-delay: {crawl_delay}\n"
         )
         super().__init__(ScriptedRoutes(script, robots), crawl_delay=crawl_delay, enforce=False)
+
+
+class LoopbackOnly(httpx.AsyncHTTPTransport):
+    """The real HTTP transport, refusing any host but 127.0.0.1 before connecting."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.refused: list[str] = []
+
+    async def handle_async_request(self, request: httpx.Request) -> httpx.Response:
+        """Send ``request`` if it is for the loopback address; otherwise record and refuse it."""
+        if request.url.host != LOOPBACK:
+            self.refused.append(str(request.url))
+            raise httpx.ConnectError(f"test guard: {request.url.host} is not {LOOPBACK}")
+        return await super().handle_async_request(request)

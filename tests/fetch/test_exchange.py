@@ -1,0 +1,70 @@
+"""Refused URLs and redirects, judged by real loopback servers' request logs.
+
+The servers misbehave on purpose (tests/fetch/misbehaving.py): credentials and private
+addresses in a Location.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import pytest
+
+from harvester.demo.server import DemoServer
+from harvester.errors import FetchLimitError
+from harvester.fetch.identity import Identity
+from harvester.fetch.sync import SyncFetcher
+from tests.fetch.misbehaving import LoopbackOnly, ScriptedSite, html, redirect
+
+IDENTITY = Identity.from_contact("mailto:analyst@example.org")
+
+
+def fetcher(**options: Any) -> SyncFetcher:
+    options.setdefault("backoff_initial", 0.05)
+    options.setdefault("backoff_max", 0.2)
+    return SyncFetcher(IDENTITY, **options)
+
+
+def test_an_invalid_url_is_refused_before_any_request(demo_site: DemoServer) -> None:
+    with fetcher() as client, pytest.raises(FetchLimitError) as caught:
+        client.fetch(f"http://127.0.0.1:{demo_site.port}0000/a")
+    assert "invalid URL (Port out of range 0-65535)" in str(caught.value)
+    assert demo_site.log == []
+
+
+def test_a_redirect_carrying_credentials_is_refused_and_nothing_leaks() -> None:
+    with ScriptedSite({"/a": [html()], "/b": [html()]}) as site, fetcher() as client:
+        target = site.url("/b").replace("http://", "http://user:secret@")
+        bouncer = ScriptedSite({"/a": [redirect(target)]})
+        with bouncer, pytest.raises(FetchLimitError) as caught:
+            client.fetch(bouncer.url("/a"))
+        text = str(caught.value)
+        assert (
+            f"redirect to {site.url('/b').replace('http://', 'http://user:***@')} refused" in text
+        )
+        assert "the URL carries user info (credentials), which harvester never sends" in text
+        assert "secret" not in text
+        assert site.log == []  # nothing was sent to the credentialed URL
+        assert all("authorization" not in record.headers for record in bouncer.log)
+
+
+def test_a_loopback_site_may_not_redirect_to_a_link_local_address() -> None:
+    guard = LoopbackOnly()  # if the refusal failed, the guard would stop the request
+    metadata = "http://169.254.169.254/latest/meta-data/"
+    with ScriptedSite({"/a": [redirect(metadata)]}) as site, fetcher(transport=guard) as client:
+        with pytest.raises(FetchLimitError) as caught:
+            client.fetch(site.url("/a"))
+        assert str(caught.value).startswith(
+            f"{site.url('/a')}: redirect to {metadata} refused: it leads from a loopback address"
+            " to a link-local address"
+        )
+    assert guard.refused == []
+
+
+def test_a_loopback_site_may_redirect_within_loopback() -> None:
+    with ScriptedSite({"/b": [html("<p>here</p>")]}) as target:
+        site = ScriptedSite({"/a": [redirect(target.url("/b"))]})
+        with site, fetcher(transport=LoopbackOnly()) as client:
+            capture = client.fetch(site.url("/a"))
+        assert capture.final_url == target.url("/b")
+    assert b"here" in capture.body
