@@ -152,7 +152,7 @@ class Fetcher:
         host = host_key(url)
         try:
             answer, hops = await self._with_retries(url, conditional)
-        except Transient as failure:
+        except Transient as failure:  # a permanent failure (FetchError) is never retried
             self.pacer.failed(host_key(failure.url), failure.reason)
             raise FetchError(
                 f"gave up after {self.retries + 1} attempts: {failure.reason}",
@@ -337,7 +337,14 @@ class Fetcher:
 
     def _redirect_target(self, url: str, current: str, location: str) -> str:
         """Where a redirect leads; refused (not retried) when it may not be followed."""
-        target = urljoin(current, location)
+        try:
+            target = urljoin(current, location)
+        except ValueError as exc:
+            raise FetchLimitError(
+                f"redirect to an invalid Location {location!r} ({exc})",
+                url=url,
+                hint="the site sends a broken redirect; report it to the site",
+            ) from None
         scheme = urlsplit(target).scheme.lower()
         problem = (
             f"scheme {scheme!r} is not fetched"

@@ -5,8 +5,9 @@ the host's slot (one in flight at a time) and starts no sooner than the host's i
 small jitter, which only ever adds) after the previous request *finished*. Counting from the
 finish rather than the start is what makes the spacing hold on the server's clock too: the
 server sees a request arrive somewhere between our start and its finish, so only a gap after
-the finish guarantees the gap between two arrivals. A 429 or 503 raises the interval (and
-Retry-After is honoured); successes let it decay slowly back to the base. A wait longer than
+the finish guarantees the gap between two arrivals. A Retry-After holds the host exactly that
+long; a 429 or 503 without one doubles the interval instead, and each success halves the excess
+again, so the pace is back at the base within a few requests. A wait longer than
 ``announce_after`` seconds is announced once, with its reason, through ``on_wait``. After
 ``failure_limit`` consecutive failures the host is paused for the rest of the run, and every
 later request to it fails at once, while other hosts go on.
@@ -71,7 +72,7 @@ class HostPacer:
         default_interval: float = DEFAULT_INTERVAL,
         jitter: float = 0.02,
         raise_factor: float = 2.0,
-        decay: float = 0.9,
+        decay: float = 0.5,
         max_interval: float = 300.0,
         failure_limit: int = 5,
         on_wait: WaitAnnouncer | None = None,
@@ -83,7 +84,7 @@ class HostPacer:
         self.default_interval = default_interval
         self.jitter = jitter  # a fraction of the interval, added at random to each gap
         self.raise_factor = raise_factor
-        self.decay = decay
+        self.decay = decay  # the share of a raised interval's excess kept after a success
         self.max_interval = max_interval
         self.failure_limit = failure_limit
         self.on_wait = on_wait  # the fetcher sets its announcer here
@@ -178,26 +179,28 @@ class HostPacer:
     def back_off(
         self, host: HostKey, retry_after: float | None, *, cap: float = math.inf, why: str = ""
     ) -> float:
-        """After a 429 or 503: raise the interval and push the next start; return the wait.
+        """After a 429 or 503: push the next start back; return the wait in seconds.
 
-        With Retry-After the next start waits at least that long (RFC 9110 §10.2.3); the
-        interval itself doubles (up to ``max_interval`` and ``cap``) and decays with successes.
+        With Retry-After the next start waits exactly that long and no guess is added: the site
+        said when (RFC 9110 §10.2.3). Without it the interval doubles (at most ``max_interval``
+        and ``cap``), to be halved back towards the base by successes.
         """
         state = self._host(host)
+        if retry_after is not None:
+            self.hold(host, retry_after, f"Retry-After: {retry_after:g} s{why}")
+            return retry_after
         raised = max(self._interval(state), 0.5) * self.raise_factor
         state.raised = min(self.max_interval, cap, raised)
-        if retry_after is not None:
-            wait = max(retry_after, state.raised)
-            self.hold(host, wait, f"Retry-After: {retry_after:g} s{why}")
-            return wait
         self.hold(host, state.raised, f"back-off{why}")
         return state.raised
 
     def succeeded(self, host: HostKey) -> None:
-        """A request worked: clear the failure count and let a raised interval decay."""
+        """A request worked: clear the failure count and shrink a raised interval's excess."""
         state = self._host(host)
         state.failures = 0
-        state.raised = state.raised * self.decay if state.raised > state.base else 0.0
+        excess = (state.raised - state.base) * self.decay
+        # A sliver of excess is noise, not caution: drop it rather than halve it for ever.
+        state.raised = state.base + excess if excess > max(0.01, 0.05 * state.base) else 0.0
 
     def failed(self, host: HostKey, reason: str) -> bool:
         """A request failed for good; return True when this opens the host's circuit breaker."""
