@@ -17,8 +17,21 @@ from urllib.parse import urljoin, urlsplit
 
 import httpx
 
-from harvester.errors import FetchError, FetchLimitError, HttpStatusError, RobotsDisallowedError
-from harvester.fetch.cache import CacheLookup, HttpCache, StoredResponse, conditional_headers
+from harvester.errors import (
+    FetchError,
+    FetchLimitError,
+    HttpStatusError,
+    NotCachedError,
+    RobotsDisallowedError,
+)
+from harvester.fetch.cache import (
+    CacheLookup,
+    HttpCache,
+    StoredResponse,
+    conditional_headers,
+    forbids_stale,
+)
+from harvester.fetch.cache_entry import cache_directives
 from harvester.fetch.capture import Capture, Origin, header
 from harvester.fetch.exchange import REDIRECTS, PacedSender
 from harvester.fetch.identity import Identity
@@ -140,10 +153,12 @@ class Fetcher:
             else CacheLookup("miss", None, {}, None)
         )
         if self.mode == "offline":
-            return self._offline(url, request_headers)
-        if lookup.response is not None and (
-            lookup.response.immutable or (lookup.state == "fresh" and self.mode == "normal")
-        ):
+            return self._offline(url, lookup)
+        # --refresh revalidates every copy, immutable ones too (docs/fetching.md).
+        usable = lookup.response is not None and (
+            lookup.response.immutable or lookup.state == "fresh"
+        )
+        if usable and self.mode == "normal" and lookup.response is not None:
             return self._from_cache(url, lookup.response)
         conditional: dict[str, str] = {}
         if lookup.response is not None:
@@ -208,15 +223,24 @@ class Fetcher:
         if problem is not None:
             raise FetchLimitError(problem, url=redact(url), hint="fix the URL")
 
-    def _offline(self, url: str, request_headers: dict[str, str]) -> Capture:
-        stored = (
-            self.cache.lookup_any("GET", url, request_headers) if self.cache is not None else None
-        )
+    def _offline(self, url: str, lookup: CacheLookup) -> Capture:
+        stored = lookup.response
         if stored is None:
-            raise FetchError(
+            raise NotCachedError(
                 "not in the cache, and --offline forbids fetching it",
                 url=url,
                 hint="run once without --offline to fill the cache",
+            )
+        if lookup.state != "fresh" and forbids_stale(stored):
+            # RFC 9111 §4.2.4 (must-revalidate) and §5.2.2.4 (no-cache): never served unchecked.
+            named = sorted(
+                {d for d, _ in cache_directives(stored.headers)} & {"must-revalidate", "no-cache"}
+            )
+            raise NotCachedError(
+                f"the cached copy is stale and its Cache-Control ({', '.join(named)}) forbids "
+                "using it without asking the site, which --offline forbids",
+                url=url,
+                hint="run once without --offline to revalidate it",
             )
         return self._from_cache(url, stored)
 
