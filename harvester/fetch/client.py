@@ -33,6 +33,7 @@ from harvester.fetch.cache import (
 )
 from harvester.fetch.cache_entry import cache_directives
 from harvester.fetch.capture import Capture, Origin, header
+from harvester.fetch.disk_store import open_store
 from harvester.fetch.exchange import REDIRECTS, PacedSender
 from harvester.fetch.identity import Identity
 from harvester.fetch.limits import FetchLimits
@@ -84,9 +85,7 @@ class Fetcher:
         self.cache = HttpCache(Path(cache_dir) / "http") if cache_dir is not None else None
         self._robots_store = None
         if cache_dir is not None:
-            import diskcache
-
-            self._robots_store = diskcache.Cache(str(Path(cache_dir) / "robots"))
+            self._robots_store = open_store(Path(cache_dir) / "robots", "robots store")
         timeout = httpx.Timeout(
             connect=self.limits.connect_timeout,
             read=self.limits.read_timeout,
