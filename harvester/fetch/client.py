@@ -153,12 +153,11 @@ class Fetcher:
         )
         if self.mode == "offline":
             return self._offline(url, lookup)
+        stored = lookup.response
         # --refresh revalidates every copy, immutable ones too (docs/fetching.md).
-        usable = lookup.response is not None and (
-            lookup.response.immutable or lookup.state == "fresh"
-        )
-        if usable and self.mode == "normal" and lookup.response is not None:
-            return self._from_cache(url, lookup.response)
+        reusable = lookup.state == "fresh" or (stored is not None and stored.immutable)
+        if stored is not None and reusable and self.mode == "normal":
+            return self._from_cache(url, stored)
         conditional: dict[str, str] = {}
         if lookup.response is not None:
             # Stale entries come with their validators; --refresh revalidates fresh ones too.
