@@ -4,19 +4,20 @@ Entries live under ``"METHOD URI"`` (RFC 9111 §2); each holds the variants that
 apart, and a variant's identity is its Vary-selected request values (§4.1). This module is the
 storage and the lookup; the rules it applies are in ``cache_freshness`` (storable, fresh, age),
 ``cache_vary`` (which variant a request may use) and ``cache_validation`` (validators, 304s),
-with the stored record, ``StoredResponse``, in ``cache_entry``.
+with the stored record, ``StoredResponse``, in ``cache_entry``. The cache is disposable: a
+damaged entry is a miss (one warning), a damaged database is moved aside (``disk_store``).
 """
 
 from __future__ import annotations
 
+import logging
+import pickle
 import sqlite3
 from collections.abc import Mapping
 from dataclasses import astuple, dataclass
 from datetime import datetime
 from pathlib import Path
 from typing import Any, Literal
-
-import diskcache
 
 from harvester.errors import FetchError
 from harvester.fetch.cache_entry import StoredResponse, has_directive, header_pairs, recency
@@ -29,6 +30,9 @@ from harvester.fetch.cache_freshness import (
 )
 from harvester.fetch.cache_validation import apply_304, conditional_headers, select_for_304
 from harvester.fetch.cache_vary import variant_identity, vary_matches
+from harvester.fetch.disk_store import open_store
+
+_log = logging.getLogger("harvester.fetch")
 
 __all__ = [
     "HEURISTICALLY_CACHEABLE",
@@ -67,7 +71,7 @@ class HttpCache:
         self._fraction = heuristic_fraction
         self._cap = heuristic_cap
         try:
-            self._disk: Any = diskcache.Cache(str(self.directory))
+            self._disk: Any = open_store(self.directory, "HTTP cache")
         except (OSError, sqlite3.Error) as exc:
             raise FetchError(
                 f"cannot open the HTTP cache at {self.directory}: {exc}",
@@ -79,8 +83,15 @@ class HttpCache:
         return f"{method.upper()} {url}"
 
     def _variants(self, key: str) -> list[StoredResponse]:
+        try:
+            stored = self._disk.get(key, default=None) or []
+        except (pickle.UnpicklingError, EOFError, ValueError, AttributeError, ImportError) as exc:
+            # A truncated or garbled value file: drop the entry and fetch the page afresh.
+            _log.warning("damaged HTTP cache entry for %s (%s); fetching it afresh", key, exc)
+            self._disk.delete(key)
+            return []
         try:  # entries are field tuples; one written by an older layout counts as a miss
-            return [StoredResponse(*fields) for fields in self._disk.get(key, default=None) or []]
+            return [StoredResponse(*fields) for fields in stored]
         except TypeError:
             return []
 

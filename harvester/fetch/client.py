@@ -4,38 +4,50 @@ One ``Fetcher`` per run. It identifies itself honestly (``harvester/<version> (+
 a ``From`` header for an e-mail contact), never fetches what robots.txt disallows, spaces
 requests per host, retries 429/503 and network errors (honouring Retry-After, else exponential
 back-off with jitter), pauses a host that keeps failing, and keeps a private RFC 9111 cache.
-The network layer is an httpx transport, so tests and replays can swap it.
+The network layer is an httpx transport, so tests and replays can swap it; the paced sending,
+retries and robots.txt fetching are in ``exchange``. No single wait exceeds
+``FetchLimits.max_wait``, and waits over five seconds are announced through ``on_wait``.
 """
 
 from __future__ import annotations
 
-import asyncio
-import time
 from pathlib import Path
 from typing import Literal
 from urllib.parse import urljoin, urlsplit
 
 import httpx
-from tenacity import AsyncRetrying, RetryCallState, retry_if_exception_type, stop_after_attempt
-from tenacity.wait import wait_random_exponential
 
-from harvester.errors import FetchError, FetchLimitError, HttpStatusError, RobotsDisallowedError
-from harvester.fetch.cache import CacheLookup, HttpCache, StoredResponse, conditional_headers
+from harvester.errors import (
+    FetchError,
+    FetchLimitError,
+    HttpStatusError,
+    NotCachedError,
+    RobotsDisallowedError,
+)
+from harvester.fetch.cache import (
+    CacheLookup,
+    HttpCache,
+    StoredResponse,
+    conditional_headers,
+    forbids_stale,
+)
+from harvester.fetch.cache_entry import cache_directives
 from harvester.fetch.capture import Capture, Origin, header
-from harvester.fetch.httpdate import parse_http_date, parse_retry_after
+from harvester.fetch.disk_store import open_store
+from harvester.fetch.exchange import REDIRECTS, PacedSender
 from harvester.fetch.identity import Identity
 from harvester.fetch.limits import FetchLimits
 from harvester.fetch.pacing import DEFAULT_INTERVAL, HostPacer, describe, host_key
 from harvester.fetch.robots import RobotsTxt
-from harvester.fetch.robots_gate import RobotsAnswer, RobotsGate
+from harvester.fetch.robots_gate import RobotsGate
 from harvester.fetch.source import PageRequest
-from harvester.fetch.transfer import Answer, Transient, get, now
+from harvester.fetch.targets import redact, redirect_problem, url_problem
+from harvester.fetch.transfer import Answer, Transient, now
+from harvester.fetch.waits import WaitAnnouncer, cap_hint, log_wait, seconds_text
 
 __all__ = ["FetchMode", "Fetcher"]
 
 FetchMode = Literal["normal", "offline", "refresh"]
-_REDIRECTS = frozenset({301, 302, 303, 307, 308})
-_RETRY_AFTER_CAP = 3600.0  # never wait longer than an hour on one Retry-After
 
 
 class Fetcher:
@@ -60,6 +72,7 @@ class Fetcher:
         backoff_max: float = 60.0,
         robots_on_429: Literal["unreachable", "unavailable"] = "unreachable",
         origin: Origin = "live",
+        on_wait: WaitAnnouncer = log_wait,
     ) -> None:
         self.identity = identity
         self.origin = origin  # what a network answer's capture says it came from
@@ -67,24 +80,12 @@ class Fetcher:
         self.min_interval = min_interval  # the recipe's delay: raises Crawl-delay, never lowers
         self.limits = limits or FetchLimits()
         self.pacer = pacer or HostPacer()
+        self.pacer.on_wait = on_wait  # long waits (over five seconds) are announced
         self.retries = retries
-        # Exponential back-off with full jitter: a random wait up to initial × 2^attempt.
-        self._backoff = wait_random_exponential(multiplier=backoff_initial, max=backoff_max)
         self.cache = HttpCache(Path(cache_dir) / "http") if cache_dir is not None else None
         self._robots_store = None
         if cache_dir is not None:
-            import diskcache
-
-            self._robots_store = diskcache.Cache(str(Path(cache_dir) / "robots"))
-        self.robots = RobotsGate(
-            self._fetch_robots,
-            store=self._robots_store,
-            on_429=robots_on_429,
-            parse_limit=self.limits.robots_parse_limit,
-        )
-        # When each host was last asked, kept across runs: a run started right after another
-        # still waits out the interval (the store is the robots one; keys do not collide).
-        self._pace_loaded: set[tuple[str, str, int]] = set()
+            self._robots_store = open_store(Path(cache_dir) / "robots", "robots store")
         timeout = httpx.Timeout(
             connect=self.limits.connect_timeout,
             read=self.limits.read_timeout,
@@ -97,6 +98,23 @@ class Fetcher:
             follow_redirects=False,
             headers=identity.headers(),
             trust_env=False,  # no proxies from the environment: we talk to the site itself
+        )
+        # When each host was last asked is kept across runs in the robots store (keys do not
+        # collide): a run started right after another still waits out the interval.
+        self._sender = PacedSender(
+            self._client,
+            self.pacer,
+            self.limits,
+            retries=retries,
+            backoff_initial=backoff_initial,
+            backoff_max=backoff_max,
+            pace_store=self._robots_store,
+        )
+        self.robots = RobotsGate(
+            self._sender.fetch_robots,
+            store=self._robots_store,
+            on_429=robots_on_429,
+            parse_limit=self.limits.robots_parse_limit,
         )
         self._intervals_set: set[tuple[str, str, int]] = set()
 
@@ -126,7 +144,7 @@ class Fetcher:
         ``immutable`` marks a page that never changes (a past season): once cached it is
         always fresh. Raises a FetchError subclass for anything that is not a usable page.
         """
-        self._check_scheme(url)
+        self._check_target(url)
         request_headers = dict(self.identity.headers())
         lookup = (
             self.cache.lookup("GET", url, request_headers, now())
@@ -134,11 +152,12 @@ class Fetcher:
             else CacheLookup("miss", None, {}, None)
         )
         if self.mode == "offline":
-            return self._offline(url, request_headers)
-        if lookup.response is not None and (
-            lookup.response.immutable or (lookup.state == "fresh" and self.mode == "normal")
-        ):
-            return self._from_cache(url, lookup.response)
+            return self._offline(url, lookup)
+        stored = lookup.response
+        # --refresh revalidates every copy, immutable ones too (docs/fetching.md).
+        reusable = lookup.state == "fresh" or (stored is not None and stored.immutable)
+        if stored is not None and reusable and self.mode == "normal":
+            return self._from_cache(url, stored)
         conditional: dict[str, str] = {}
         if lookup.response is not None:
             # Stale entries come with their validators; --refresh revalidates fresh ones too.
@@ -146,7 +165,7 @@ class Fetcher:
         host = host_key(url)
         try:
             answer, hops = await self._with_retries(url, conditional)
-        except Transient as failure:
+        except Transient as failure:  # a permanent failure (FetchError) is never retried
             self.pacer.failed(host_key(failure.url), failure.reason)
             raise FetchError(
                 f"gave up after {self.retries + 1} attempts: {failure.reason}",
@@ -188,25 +207,38 @@ class Fetcher:
 
     # -- steps -------------------------------------------------------------------------
 
-    def _check_scheme(self, url: str) -> None:
+    def _check_target(self, url: str) -> None:
+        """Refuse a URL of another scheme, a malformed one, or one carrying credentials."""
         scheme = urlsplit(url).scheme.lower()
         if scheme not in self.limits.schemes:
             allowed = " or ".join(f"{name}://" for name in self.limits.schemes)
             raise FetchLimitError(
                 f"scheme {scheme or '(none)'!r} is not fetched",
-                url=url,
+                url=redact(url),
                 hint=f"use a URL starting with {allowed}",
             )
+        problem = url_problem(url)
+        if problem is not None:
+            raise FetchLimitError(problem, url=redact(url), hint="fix the URL")
 
-    def _offline(self, url: str, request_headers: dict[str, str]) -> Capture:
-        stored = (
-            self.cache.lookup_any("GET", url, request_headers) if self.cache is not None else None
-        )
+    def _offline(self, url: str, lookup: CacheLookup) -> Capture:
+        stored = lookup.response
         if stored is None:
-            raise FetchError(
+            raise NotCachedError(
                 "not in the cache, and --offline forbids fetching it",
                 url=url,
                 hint="run once without --offline to fill the cache",
+            )
+        if lookup.state != "fresh" and forbids_stale(stored):
+            # RFC 9111 §4.2.4 (must-revalidate) and §5.2.2.4 (no-cache): never served unchecked.
+            named = sorted(
+                {d for d, _ in cache_directives(stored.headers)} & {"must-revalidate", "no-cache"}
+            )
+            raise NotCachedError(
+                f"the cached copy is stale and its Cache-Control ({', '.join(named)}) forbids "
+                "using it without asking the site, which --offline forbids",
+                url=url,
+                hint="run once without --offline to revalidate it",
             )
         return self._from_cache(url, stored)
 
@@ -256,13 +288,24 @@ class Fetcher:
         # Crawl-delay and Request-rate are not in RFC 9309 (common practice, no published
         # source): the interval is the larger of the site's and the recipe's, never less.
         site = rules.min_interval(self.identity.token)
+        self._intervals_set.add(host)
+        if site is not None and site > self.limits.max_wait:
+            named = "Crawl-delay" if rules.crawl_delay(self.identity.token) == site else None
+            cap = seconds_text(self.limits.max_wait)
+            message = (
+                f"robots.txt asks for {seconds_text(site)} between requests "
+                f"(its {named or 'Request-rate'}), over the {cap} cap on any one wait; "
+                f"{describe(host)} is skipped for this run"
+            )
+            self._sender.skip(host, message, cap_hint(site))
+            return
         self.pacer.set_interval(
             host, max(site if site is not None else DEFAULT_INTERVAL, self.min_interval)
         )
-        self._intervals_set.add(host)
 
     async def _allowed(self, url: str) -> None:
         rules = await self.check_robots(url)
+        self._sender.check_skipped(url)
         verdict = rules.check(url, self.identity.token)
         if not verdict.allowed:
             rule = verdict.rule
@@ -276,43 +319,29 @@ class Fetcher:
                 hint="robots.txt is the site's wish; leave this page out of the recipe",
             )
 
-    def _wait(self, state: RetryCallState) -> float:
-        failure = state.outcome.exception() if state.outcome is not None else None
-        if isinstance(failure, Transient) and failure.retry_after is not None:
-            return 0.0  # the pacer holds the host until Retry-After has passed
-        return float(self._backoff(state))
-
     async def _with_retries(
         self, url: str, conditional: dict[str, str]
     ) -> tuple[Answer, tuple[str, ...]]:
-        async for attempt in self._retrying():
+        async for attempt in self._sender.retrying():
             with attempt:
                 return await self._follow(url, conditional)
         raise AssertionError("unreachable: tenacity re-raises the last failure")
 
-    def _retrying(self) -> AsyncRetrying:
-        return AsyncRetrying(
-            stop=stop_after_attempt(self.retries + 1),
-            wait=self._wait,
-            retry=retry_if_exception_type(Transient),
-            reraise=True,
-        )
-
     async def _follow(
         self, url: str, conditional: dict[str, str]
     ) -> tuple[Answer, tuple[str, ...]]:
-        """GET with redirects followed by hand, each hop robots-checked and paced."""
+        """GET with redirects followed by hand, each hop checked, robots-checked and paced."""
         current, seen = url, {url}
         hops: list[str] = []
         for hop in range(self.limits.max_redirects + 1):
             await self._allowed(current)
             # RFC 9110 §15.4: validators are for the original URI only.
-            answer = await self._send(current, conditional if hop == 0 else {}, check_type=True)
+            headers = conditional if hop == 0 else {}
+            answer = await self._sender.send(current, headers, check_type=True)
             location = header(answer.headers, "location")
-            if answer.status not in _REDIRECTS or not location:
+            if answer.status not in REDIRECTS or not location:
                 return answer, tuple(hops)
-            target = urljoin(current, location.strip())
-            self._check_scheme(target)
+            target = self._redirect_target(url, current, location.strip())
             if target in seen:
                 raise FetchLimitError(
                     f"redirect loop: {' → '.join([*hops, current, target])}",
@@ -328,76 +357,26 @@ class Fetcher:
             hint="the site redirects too often; check the URL",
         )
 
-    async def _send(self, url: str, headers: dict[str, str], *, check_type: bool) -> Answer:
-        """One paced GET with the hard limits; 429/503/5xx and network errors are transient."""
-        host = host_key(url)
-        self._resume_pace(host)
-        async with self.pacer.slot(host):
-            try:
-                async with asyncio.timeout(self.limits.total_timeout):
-                    answer = await get(
-                        self._client, url, headers, self.limits, check_type=check_type
-                    )
-            except (TimeoutError, httpx.TimeoutException) as exc:
-                raise Transient(url, f"timed out ({type(exc).__name__})") from exc
-            except httpx.TransportError as exc:
-                raise Transient(url, f"network error: {exc}") from exc
-            finally:
-                self._remember_pace(host)
-        if answer.status in (429, 503):
-            received = answer.response_time
-            value = header(answer.headers, "retry-after")
-            date = header(answer.headers, "date")
-            retry_after = (
-                parse_retry_after(
-                    value,
-                    response_date=parse_http_date(date) if date else None,
-                    received_at=received,
-                    cap=_RETRY_AFTER_CAP,
-                )
-                if value
-                else None
+    def _redirect_target(self, url: str, current: str, location: str) -> str:
+        """Where a redirect leads; refused (not retried) when it may not be followed."""
+        try:
+            target = urljoin(current, location)
+        except ValueError as exc:
+            raise FetchLimitError(
+                f"redirect to an invalid Location {location!r} ({exc})",
+                url=url,
+                hint="the site sends a broken redirect; report it to the site",
+            ) from None
+        scheme = urlsplit(target).scheme.lower()
+        problem = (
+            f"scheme {scheme!r} is not fetched"
+            if scheme not in self.limits.schemes
+            else redirect_problem(current, target)
+        )
+        if problem is not None:
+            raise FetchLimitError(
+                f"redirect to {redact(target)} refused: {problem}",
+                url=url,
+                hint="harvester does not follow such redirects; report it to the site",
             )
-            self.pacer.back_off(host, retry_after)
-            reason = f"HTTP {answer.status} from {describe(host)}"
-            raise Transient(url, reason, retry_after, answer.status)
-        if answer.status >= 500:
-            raise Transient(url, f"HTTP {answer.status} from {describe(host)}", None, answer.status)
-        return answer
-
-    def _resume_pace(self, host: tuple[str, str, int]) -> None:
-        """Before a run's first request to a host, wait out the pace the last run left."""
-        if host in self._pace_loaded or self._robots_store is None:
-            return
-        self._pace_loaded.add(host)
-        last = self._robots_store.get(("pace", host))
-        if last is not None:
-            finished_at, interval = last
-            self.pacer.hold(host, finished_at + interval - time.time())
-
-    def _remember_pace(self, host: tuple[str, str, int]) -> None:
-        if self._robots_store is not None:
-            self._robots_store.set(("pace", host), (time.time(), self.pacer.interval(host)))
-
-    async def _fetch_robots(self, location: str) -> RobotsAnswer:
-        """GET robots.txt, following up to five redirects (RFC 9309 §2.3.1.2)."""
-        current, seen = location, {location}
-        for _ in range(self.limits.robots_max_redirects + 1):
-            try:
-                # A 429 or 5xx on robots.txt is retried like any page before it counts.
-                async for attempt in self._retrying():
-                    with attempt:
-                        answer = await self._send(current, {}, check_type=False)
-            except Transient as failure:
-                return RobotsAnswer(failure.status, detail=failure.reason)
-            target = header(answer.headers, "location")
-            if answer.status not in _REDIRECTS or not target:
-                # One octet past the limit, so the parser can tell a cut-off last line.
-                kept = answer.body[: self.limits.robots_parse_limit + 1]
-                return RobotsAnswer(answer.status, kept)
-            current = urljoin(current, target.strip())
-            if current in seen or urlsplit(current).scheme not in self.limits.schemes:
-                return RobotsAnswer(None, detail="robots.txt redirects in a loop")
-            seen.add(current)
-        # §2.3.1.2: after more than five redirects it MAY be treated as unavailable.
-        return RobotsAnswer(404, detail="more than five redirects")
+        return target

@@ -31,3 +31,6 @@ class FetchLimits:
     robots_parse_limit: int = ROBOTS_PARSE_LIMIT  # octets of robots.txt parsed (RFC 9309 §2.5)
     schemes: tuple[str, ...] = ("http", "https")
     content_types: tuple[str, ...] = ("text/html", "application/xhtml+xml")
+    # The longest single wait (Crawl-delay, Retry-After, back-off); a site asking for more is
+    # skipped for the run rather than left to stall it silently.
+    max_wait: float = 600.0

@@ -61,7 +61,7 @@ class RobotsReport:
     verdicts: tuple[UrlVerdict, ...]
     crawl_delays: Mapping[str, float | None] = field(
         default_factory=lambda: MappingProxyType({})
-    )  # robots.txt URL → seconds in force (None: the file names none); empty for a saved file
+    )  # robots.txt URL → seconds in force (None: the file names none); a saved file's only if named
 
     def text_lines(self, *, explain: bool = False) -> list[str]:
         """One line per URL, then ``crawl-delay<TAB>SECONDS`` per site (naming it if several)."""
@@ -81,10 +81,19 @@ class RobotsReport:
         }
 
 
-def judge_by_file(content: bytes, urls: Sequence[str], agent: str) -> RobotsReport:
-    """Judge ``urls`` by one robots.txt file's content; nothing is fetched."""
+def judge_by_file(
+    content: bytes, urls: Sequence[str], agent: str, *, location: str = "robots.txt"
+) -> RobotsReport:
+    """Judge ``urls`` by one robots.txt file's content; nothing is fetched.
+
+    The file's Crawl-delay (or Request-rate) for ``agent`` is reported under ``location`` (the
+    file's name, say) when the file names one; a file without one reports none.
+    """
     rules = RobotsTxt.parse(content)
-    return RobotsReport(agent, tuple(UrlVerdict(url, rules.check(url, agent)) for url in urls))
+    verdicts = tuple(UrlVerdict(url, rules.check(url, agent)) for url in urls)
+    delay = rules.min_interval(agent)
+    delays = MappingProxyType({} if delay is None else {location: delay})
+    return RobotsReport(agent, verdicts, delays)
 
 
 def judge_live(urls: Sequence[str], agent: str, identity: Identity) -> RobotsReport:

@@ -1,19 +1,27 @@
 """One HTTP exchange on the wire: a streamed GET within the hard limits, and its answer.
 
+A body that claims a Content-Encoding it does not have, and an answer whose framing breaks
+HTTP (a bad Content-Length), are FetchErrors, not ``Transient``: retrying gets the same bytes.
+
 No pacing, robots.txt or cache here — the fetcher (client.py) wraps those around ``get``.
 """
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 from datetime import UTC, datetime
 
 import httpx
 
-from harvester.errors import FetchLimitError
+from harvester.errors import FetchError, FetchLimitError
 from harvester.fetch.limits import FetchLimits
 
 __all__ = ["Answer", "Transient", "get", "now"]
+
+# Protocol errors no retry can fix: the site's framing is wrong (h11's messages name the field),
+# unlike a dropped connection ("Server disconnected", "peer closed connection").
+_MALFORMED = re.compile(r"content-length|transfer-encoding|malformed|invalid|illegal", re.I)
 
 
 class Transient(Exception):
@@ -56,19 +64,42 @@ async def get(
 ) -> Answer:
     """One GET, streamed within ``limits``; the type checked first when ``check_type``."""
     request_time = now()
-    async with client.stream("GET", url, headers=headers) as response:
-        status = response.status_code
-        if check_type and 200 <= status < 300:
-            _check_content_type(url, response.headers.get("content-type"), limits)
-        body = await _read_body(url, response, limits)
-        return Answer(
+    try:
+        async with client.stream("GET", url, headers=headers) as response:
+            status = response.status_code
+            if check_type and 200 <= status < 300:
+                _check_content_type(url, response.headers.get("content-type"), limits)
+            body = await _read_body(url, response, limits)
+    except httpx.DecodingError as exc:
+        coding = response.headers.get("content-encoding", "?")
+        raise FetchError(
+            f"the body claims Content-Encoding {coding} but does not decode ({exc})",
             url=url,
-            status=status,
-            headers=tuple(response.headers.multi_items()),
-            body=body,
-            request_time=request_time,
-            response_time=now(),
-        )
+            hint="the site sends a broken compressed body; report it to the site",
+        ) from None
+    except httpx.RemoteProtocolError as exc:
+        if not _MALFORMED.search(str(exc)):
+            raise  # a dropped connection: the caller retries it
+        if "location header" in str(exc).lower():
+            # httpx reads a redirect's Location itself, before the fetcher sees the answer.
+            raise FetchError(
+                f"redirect to an invalid Location ({exc})",
+                url=url,
+                hint="the site sends a broken redirect; report it to the site",
+            ) from None
+        raise FetchError(
+            f"the answer breaks HTTP's message framing ({exc})",
+            url=url,
+            hint="the site sends malformed responses (RFC 9112 §6); report it to the site",
+        ) from None
+    return Answer(
+        url=url,
+        status=status,
+        headers=tuple(response.headers.multi_items()),
+        body=body,
+        request_time=request_time,
+        response_time=now(),
+    )
 
 
 def _check_content_type(url: str, content_type: str | None, limits: FetchLimits) -> None:

@@ -16,12 +16,14 @@ from harvester.errors import (
     FetchLimitError,
     HostPausedError,
     HttpStatusError,
+    NotCachedError,
     RobotsDisallowedError,
 )
 from harvester.fetch.identity import Identity
 from harvester.fetch.limits import FetchLimits
 from harvester.fetch.pacing import HostPacer
 from harvester.fetch.sync import SyncFetcher
+from tests.fetch.misbehaving import ScriptedSite, html
 
 TEST_CRAWL_DELAY = 0.05  # tests/conftest.py starts demo servers with this Crawl-delay
 
@@ -159,9 +161,39 @@ def test_offline_uses_only_the_cache(demo_site: DemoServer, tmp_path: Path) -> N
     demo_site.clear_log()
     with fetcher(cache_dir=tmp_path, mode="offline") as client:
         assert client.fetch(demo_site.url(PLAYERS)).origin == "cache"
-        with pytest.raises(FetchError, match="--offline"):
+        with pytest.raises(NotCachedError, match="--offline"):
             client.fetch(demo_site.url(STANDINGS))
     assert demo_site.log == []
+
+
+@pytest.mark.parametrize(
+    ("cache_control", "usable_offline"),
+    [
+        ("max-age=0, must-revalidate", False),  # stale: RFC 9111 §4.2.4 forbids serving it
+        ("max-age=60, must-revalidate", True),  # still fresh: must-revalidate binds once stale
+        ("max-age=60, no-cache", False),  # RFC 9111 §5.2.2.4: never reused unvalidated
+        ("max-age=0", True),  # stale, but nothing forbids an offline run from using it
+    ],
+)
+def test_offline_never_serves_what_cache_control_forbids_serving_stale(
+    tmp_path: Path, cache_control: str, usable_offline: bool
+) -> None:
+    with ScriptedSite({"/a": [html(Cache_Control=cache_control)]}) as site:
+        with fetcher(cache_dir=tmp_path) as client:
+            client.fetch(site.url("/a"))
+        with fetcher(cache_dir=tmp_path, mode="offline") as client:
+            if usable_offline:
+                assert client.fetch(site.url("/a")).origin == "cache"
+            else:
+                with pytest.raises(NotCachedError) as caught:
+                    client.fetch(site.url("/a"))
+                named = "no-cache" if "no-cache" in cache_control else "must-revalidate"
+                assert str(caught.value) == (
+                    f"{site.url('/a')}: the cached copy is stale and its Cache-Control ({named})"
+                    " forbids using it without asking the site, which --offline forbids"
+                    " — run once without --offline to revalidate it"
+                )
+        assert len(site.requests_for("/a")) == 1
 
 
 def test_immutable_pages_are_never_asked_for_again(
@@ -172,6 +204,17 @@ def test_immutable_pages_are_never_asked_for_again(
         client.fetch(site.url(PLAYERS), immutable=True)
         client.fetch(site.url(PLAYERS), immutable=True)
     assert len(site.requests_for(PLAYERS)) == 1
+
+
+def test_refresh_revalidates_immutable_pages_too(demo_site: DemoServer, tmp_path: Path) -> None:
+    # docs/fetching.md: in refresh mode every page is revalidated, fresh or not.
+    with fetcher(cache_dir=tmp_path) as client:
+        client.fetch(demo_site.url(PLAYERS), immutable=True)
+    pause()
+    with fetcher(cache_dir=tmp_path, mode="refresh") as client:
+        capture = client.fetch(demo_site.url(PLAYERS), immutable=True)
+    assert [r.status for r in demo_site.requests_for(PLAYERS)] == [200, 304]
+    assert capture.revalidated
 
 
 def test_one_hosts_circuit_breaker_leaves_the_others_running(demo_site_factory: Factory) -> None:

@@ -12,6 +12,7 @@ import pytest
 
 from harvester.errors import HostPausedError
 from harvester.fetch.pacing import HostPacer, host_key
+from harvester.fetch.waits import WaitNotice
 
 
 class FakeClock:
@@ -108,7 +109,7 @@ def test_different_hosts_do_not_wait_for_each_other() -> None:
     assert starts == [(A, 100.0), (B, 100.0)]
 
 
-def test_retry_after_holds_the_host_and_raises_the_interval() -> None:
+def test_retry_after_holds_the_host_exactly_and_leaves_the_interval() -> None:
     clock = FakeClock()
     pace = pacer(clock, jitter=0.0)
     pace.set_interval(A, 1.0)
@@ -122,25 +123,66 @@ def test_retry_after_holds_the_host_and_raises_the_interval() -> None:
         assert waited == 7.0
         async with pace.slot(A) as start:
             starts.append(start)
+        async with pace.slot(A) as start:
+            starts.append(start)
 
     run(scenario())
-    first, second = starts
-    assert second - first == pytest.approx(7.0)
-    assert pace.interval(A) == 2.0  # doubled from the base of 1 s
-
-
-def test_raised_interval_decays_back_to_the_base_with_successes() -> None:
-    clock = FakeClock()
-    pace = pacer(clock, jitter=0.0, decay=0.5)
-    pace.set_interval(A, 1.0)
-    pace.back_off(A, None)
-    pace.back_off(A, None)
-    assert pace.interval(A) == 4.0
-    pace.succeeded(A)
-    assert pace.interval(A) == 2.0
-    pace.succeeded(A)
-    pace.succeeded(A)
+    # The site named the wait, so nothing is guessed on top: 7 s, then the base 1 s again.
+    assert [later - earlier for earlier, later in itertools.pairwise(starts)] == [7.0, 1.0]
     assert pace.interval(A) == 1.0
+
+
+def test_back_off_without_retry_after_doubles_and_each_success_halves_the_excess() -> None:
+    clock = FakeClock()
+    pace = pacer(clock, jitter=0.0)
+    pace.set_interval(A, 1.0)
+    assert pace.back_off(A, None) == 2.0
+    assert pace.back_off(A, None) == 4.0
+    seen = []
+    for _ in range(6):
+        pace.succeeded(A)
+        seen.append(pace.interval(A))
+    # Excess over the 1 s base: 3 → 1.5 → 0.75 → 0.375 → 0.1875 → 0.09375 → under 5 %: gone.
+    assert seen == [2.5, 1.75, 1.375, 1.1875, 1.09375, 1.0]
+
+
+def test_back_off_never_raises_the_interval_past_the_cap() -> None:
+    pace = pacer(FakeClock(), jitter=0.0)
+    pace.set_interval(A, 1.0)
+    for _ in range(5):
+        pace.back_off(A, None, cap=3.0)
+    assert pace.interval(A) == 3.0
+
+
+def test_a_long_interval_is_announced_once_not_before_every_request() -> None:
+    clock = FakeClock()
+    notices: list[WaitNotice] = []
+    pace = HostPacer(clock=clock, sleep=clock.sleep, seed=1, jitter=0.0, on_wait=notices.append)
+    pace.set_interval(A, 10.0)
+
+    async def three() -> None:
+        for _ in range(3):
+            async with pace.slot(A):
+                pass
+
+    run(three())
+    reason = "an interval of 10 s between requests (the site's or recipe's)"
+    assert notices == [WaitNotice("http://127.0.0.1:8650", 10.0, reason)]
+
+
+def test_short_waits_are_not_announced() -> None:
+    clock = FakeClock()
+    notices: list[WaitNotice] = []
+    pace = HostPacer(clock=clock, sleep=clock.sleep, seed=1, jitter=0.0, on_wait=notices.append)
+    pace.set_interval(A, 5.0)  # exactly five seconds is the ordinary pace, not a long wait
+
+    async def two() -> None:
+        for _ in range(2):
+            async with pace.slot(A):
+                pass
+
+    run(two())
+    assert notices == []
 
 
 def test_circuit_breaker_pauses_only_the_failing_host() -> None:

@@ -28,6 +28,16 @@ def test_verdicts_keep_the_order_given_and_name_the_deciding_rule() -> None:
     assert record["crawl_delay"] == {}
 
 
+def test_a_saved_file_reports_its_crawl_delay_for_the_agent() -> None:
+    content = FILE + b"Crawl-delay: 2.5\n\nUser-agent: otherbot\nCrawl-delay: 9\n"
+    # Crawl-delay is common practice, not RFC 9309: read from the group the agent selects.
+    report = judge_by_file(content, ["/seasons/2026/"], "harvester")
+    assert report.to_dict()["crawl_delay"] == {"robots.txt": 2.5}
+    assert report.text_lines() == ["allowed\t/seasons/2026/", "crawl-delay\t2.5"]
+    named = judge_by_file(content, ["/x"], "otherbot", location="saved/robots.txt")
+    assert named.crawl_delays == {"saved/robots.txt": 9.0}
+
+
 def test_live_judging_reads_each_site_once_and_reports_its_crawl_delay(
     demo_site: DemoServer,
 ) -> None:

@@ -1,0 +1,189 @@
+"""The fetcher's network half: paced GETs with retries, the pace kept across runs, robots.txt.
+
+``PacedSender`` takes a host's one slot from the pacer for every request, turns 429/503/5xx and
+network errors into ``Transient`` failures worth retrying (pushing the host back first), and
+turns a wait the site asks for beyond ``FetchLimits.max_wait`` into a skipped host: each of its
+later requests fails at once with the same message. The fetcher (client.py) builds on it.
+"""
+
+from __future__ import annotations
+
+import asyncio
+import math
+import time
+from typing import Any
+from urllib.parse import urljoin, urlsplit
+
+import httpx
+from tenacity import AsyncRetrying, RetryCallState, retry_if_exception_type, stop_after_attempt
+from tenacity.wait import wait_random_exponential
+
+from harvester.errors import FetchLimitError
+from harvester.fetch.capture import header
+from harvester.fetch.httpdate import parse_http_date, parse_retry_after
+from harvester.fetch.limits import FetchLimits
+from harvester.fetch.pacing import HostKey, HostPacer, describe, host_key
+from harvester.fetch.robots_gate import RobotsAnswer
+from harvester.fetch.targets import redact, redirect_problem
+from harvester.fetch.transfer import Answer, Transient, get
+from harvester.fetch.waits import cap_hint, seconds_text
+
+__all__ = ["REDIRECTS", "PacedSender"]
+
+REDIRECTS = frozenset({301, 302, 303, 307, 308})
+
+
+class PacedSender:
+    """Sends one paced GET at a time per host, within the hard limits, and retries transients."""
+
+    def __init__(
+        self,
+        client: httpx.AsyncClient,
+        pacer: HostPacer,
+        limits: FetchLimits,
+        *,
+        retries: int,
+        backoff_initial: float,
+        backoff_max: float,
+        pace_store: Any | None,  # a diskcache.Cache keeping each host's last request
+    ) -> None:
+        self.client, self.pacer, self.limits, self.retries = client, pacer, limits, retries
+        # Exponential back-off with full jitter: a random wait up to initial × 2^attempt.
+        self._backoff = wait_random_exponential(multiplier=backoff_initial, max=backoff_max)
+        self._pace_store = pace_store
+        self._pace_loaded: set[HostKey] = set()
+        self._skipped: dict[HostKey, tuple[str, str]] = {}
+
+    def skip(self, host: HostKey, message: str, hint: str) -> None:
+        """Skip ``host`` for the rest of the run: its requests fail with ``message``."""
+        self._skipped.setdefault(host, (message, hint))
+
+    def check_skipped(self, url: str) -> None:
+        """Raise the skip message when ``url``'s host is skipped for the run."""
+        skipped = self._skipped.get(host_key(url))
+        if skipped is not None:
+            raise FetchLimitError(skipped[0], url=url, hint=skipped[1])
+
+    def retrying(self) -> AsyncRetrying:
+        """Retry transients ``retries`` times; every wait happens in the pacer, capped."""
+        return AsyncRetrying(
+            stop=stop_after_attempt(self.retries + 1),
+            wait=self._wait,
+            retry=retry_if_exception_type(Transient),
+            reraise=True,
+        )
+
+    def _wait(self, state: RetryCallState) -> float:
+        failure = state.outcome.exception() if state.outcome is not None else None
+        if isinstance(failure, Transient) and failure.retry_after is None:
+            # The pacer holds the host, so the wait is announced and capped like any other.
+            seconds = min(float(self._backoff(state)), self.limits.max_wait)
+            self.pacer.hold(host_key(failure.url), seconds, f"back-off after {failure.reason}")
+        return 0.0
+
+    async def send(self, url: str, headers: dict[str, str], *, check_type: bool) -> Answer:
+        """One paced GET with the hard limits; 429/503/5xx and network errors are transient."""
+        self.check_skipped(url)
+        host = host_key(url)
+        self._resume_pace(host)
+        async with self.pacer.slot(host):
+            try:
+                async with asyncio.timeout(self.limits.total_timeout):
+                    answer = await get(
+                        self.client, url, headers, self.limits, check_type=check_type
+                    )
+            except (TimeoutError, httpx.TimeoutException) as exc:
+                raise Transient(url, f"timed out ({type(exc).__name__})") from exc
+            except httpx.TransportError as exc:
+                raise Transient(url, f"network error: {exc}") from exc
+            finally:
+                self._remember_pace(host)
+        if answer.status in (429, 503):
+            retry_after = self._retry_after(url, answer)
+            why = f" after HTTP {answer.status}"
+            self.pacer.back_off(host, retry_after, cap=self.limits.max_wait, why=why)
+            reason = f"HTTP {answer.status} from {describe(host)}"
+            raise Transient(url, reason, retry_after, answer.status)
+        if answer.status >= 500:
+            raise Transient(url, f"HTTP {answer.status} from {describe(host)}", None, answer.status)
+        return answer
+
+    def _retry_after(self, url: str, answer: Answer) -> float | None:
+        """Retry-After in seconds (None when absent or invalid); over the cap skips the host."""
+        value = (header(answer.headers, "retry-after") or "").strip()
+        if not value:
+            return None
+        date = header(answer.headers, "date")
+        seconds = parse_retry_after(
+            value,
+            response_date=parse_http_date(date) if date else None,
+            received_at=answer.response_time,
+            cap=math.inf,  # measured in full, so the message can say what was asked
+        )
+        cap = self.limits.max_wait
+        if seconds is None or seconds <= cap:
+            return seconds
+        shown = value if len(value) <= 40 else f"{value[:20]}… ({len(value)} characters)"
+        host = host_key(url)
+        message = (
+            f"HTTP {answer.status} with Retry-After: {shown} asks for {seconds_text(seconds)}"
+            f" before the next request, over the {seconds_text(cap)} cap on any one wait;"
+            f" {describe(host)} is skipped for this run"
+        )
+        self.skip(host, message, cap_hint(seconds))
+        raise FetchLimitError(message, url=url, hint=cap_hint(seconds))
+
+    def _resume_pace(self, host: HostKey) -> None:
+        """Before a run's first request to a host, wait out the pace the last run left."""
+        if host in self._pace_loaded or self._pace_store is None:
+            return
+        self._pace_loaded.add(host)
+        last = self._pace_store.get(("pace", host))
+        if last is not None:
+            finished_at, interval = last
+            left = min(finished_at + interval - time.time(), self.limits.max_wait)
+            self.pacer.hold(host, left, "the pace the previous run left")
+
+    def _remember_pace(self, host: HostKey) -> None:
+        if self._pace_store is not None:
+            self._pace_store.set(("pace", host), (time.time(), self.pacer.interval(host)))
+
+    async def fetch_robots(self, location: str) -> RobotsAnswer:
+        """GET robots.txt, following up to five redirects (RFC 9309 §2.3.1.2)."""
+        current, seen = location, {location}
+        for _ in range(self.limits.robots_max_redirects + 1):
+            try:
+                # A 429 or 5xx on robots.txt is retried like any page before it counts.
+                async for attempt in self.retrying():
+                    with attempt:
+                        answer = await self.send(current, {}, check_type=False)
+            except Transient as failure:
+                return RobotsAnswer(failure.status, detail=failure.reason)
+            target = header(answer.headers, "location")
+            if answer.status not in REDIRECTS or not target:
+                # One octet past the limit, so the parser can tell a cut-off last line.
+                kept = answer.body[: self.limits.robots_parse_limit + 1]
+                return RobotsAnswer(answer.status, kept)
+            problem, current = self._robots_hop(current, target.strip(), seen)
+            if problem:
+                return RobotsAnswer(None, detail=problem)
+            seen.add(current)
+        # §2.3.1.2: after more than five redirects it MAY be treated as unavailable.
+        return RobotsAnswer(404, detail="more than five redirects")
+
+    def _robots_hop(self, current: str, location: str, seen: set[str]) -> tuple[str, str]:
+        """Where a robots.txt redirect leads, and why it is not followed ('' if it is)."""
+        try:
+            target = urljoin(current, location)
+        except ValueError as exc:
+            return f"robots.txt redirects to an invalid Location {location!r} ({exc})", current
+        scheme = urlsplit(target).scheme.lower()
+        if scheme not in self.limits.schemes:
+            shown = redact(target)
+            return f"robots.txt redirects to a {scheme}: URL ({shown})", target
+        if target in seen:
+            return "robots.txt redirects in a loop", target
+        problem = redirect_problem(current, target)
+        if problem is not None:
+            return f"robots.txt redirect to {redact(target)} refused: {problem}", target
+        return "", target
