@@ -36,6 +36,17 @@ def harvest_command(
     refresh: Annotated[
         bool, typer.Option("--refresh", help="Revalidate every cached page.")
     ] = False,
+    max_wait: Annotated[
+        float | None,
+        typer.Option(
+            "--max-wait",
+            metavar="SECONDS",
+            min=0.001,
+            max=86_400,
+            help="Longest single wait (Crawl-delay, Retry-After, back-off); else the recipe's"
+            " [fetch] max_wait, 600 by default. A site asking for more is skipped for the run.",
+        ),
+    ] = None,
     output_format: Annotated[
         TextFormat, typer.Option("--format", "-f", help="text or json (JSON lines).")
     ] = TextFormat.text,
@@ -44,7 +55,8 @@ def harvest_command(
 
     Each table is fetched, read and stored as a new version of its partition, or left as it is
     when nothing changed. A table that fails is reported and touches nothing. Exit status 1 when
-    any table failed or was refused; 5 when the archive cannot be written; 130 (Ctrl-C) or 143
+    any table failed or was refused; 5 when the archive cannot be written; waits over five
+    seconds are announced on stderr; 130 (Ctrl-C) or 143
     (SIGTERM) when a signal stopped the run at a safe point, with the report kept.
 
     Example: harvester harvest recipes/league-players.toml --param site=http://127.0.0.1:8650
@@ -65,6 +77,8 @@ def harvest_command(
             every_value=every_value,
             on_outcome=(lambda outcome: typer.echo(outcome.line())) if show else None,
             stop_on_sigterm=True,
+            max_wait=max_wait,
+            on_wait=lambda notice: typer.echo(notice.line(), err=True),
         )
     except HarvesterError as error:
         fail(error)

@@ -46,7 +46,9 @@ def robots_command(
 
     try:
         if robots_file is not None:
-            report = judge_by_file(read_input(str(robots_file)), urls, agent)
+            report = judge_by_file(
+                read_input(str(robots_file)), urls, agent, location=str(robots_file)
+            )
         else:
             identity = Identity.from_contact(contact or configured_contact(), where="--contact")
             report = judge_live(urls, agent, identity)

@@ -53,7 +53,7 @@ def seconds_text(seconds: float) -> str:
     """A wait in words for messages: ``86400 s``, or ``endless`` for infinity."""
     if math.isinf(seconds):
         return "an endless wait"
-    return f"{int(seconds)} s" if seconds.is_integer() else f"{seconds:g} s"
+    return f"{int(seconds)} s" if float(seconds).is_integer() else f"{seconds:g} s"
 
 
 def cap_hint(seconds: float) -> str:

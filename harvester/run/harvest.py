@@ -16,6 +16,7 @@ import signal
 import uuid
 from collections.abc import Callable
 from contextlib import AsyncExitStack
+from dataclasses import dataclass
 from datetime import UTC, datetime
 
 import httpx
@@ -27,7 +28,9 @@ from harvester.extract.table import extract_table, read_page
 from harvester.fetch.capture import Capture
 from harvester.fetch.client import Fetcher, FetchMode
 from harvester.fetch.identity import Identity
+from harvester.fetch.limits import FetchLimits
 from harvester.fetch.source import PageRequest, PageSource
+from harvester.fetch.waits import WaitAnnouncer, log_wait
 from harvester.recipe.model import PlannedPage, Recipe
 from harvester.recipe.templates import expand_template
 from harvester.run.provenance import RowSource, with_provenance
@@ -50,11 +53,14 @@ def harvest(
     transport: httpx.AsyncBaseTransport | None = None,
     on_outcome: Callable[[Outcome], None] | None = None,
     stop_on_sigterm: bool = False,
+    max_wait: float | None = None,
+    on_wait: WaitAnnouncer = log_wait,
 ) -> RunReport:
     """Run ``recipe`` for its current parameter values (or every value) into ``archive``.
 
     Pages come from ``source``; without one, from the polite live fetcher that ``live_source``
-    builds (``contact``, ``mode`` and ``transport`` are its settings). ``on_outcome`` is called
+    builds (``contact``, ``mode``, ``transport``, ``max_wait`` and ``on_wait`` are its
+    settings). ``on_outcome`` is called
     with each table's outcome as soon as it is known (a long run shows progress line by line).
 
     The run report is written however the run ends. Ctrl-C (SIGINT) — and SIGTERM when
@@ -65,9 +71,10 @@ def harvest(
     """
     report = RunReport(uuid.uuid4().hex[:12], recipe.name, archive, datetime.now(UTC))
     run = _Run(recipe, archive, report, on_outcome)
+    settings = _LiveSettings(contact, mode, transport, max_wait, on_wait)
     try:
         with asyncio.Runner() as runner:
-            runner.run(run.go(source, contact, mode, every_value, transport, stop_on_sigterm))
+            runner.run(run.go(source, settings, every_value, stop_on_sigterm))
     except KeyboardInterrupt:
         report.interrupted_by = "SIGINT"
     finally:
@@ -83,6 +90,17 @@ def harvest(
             hint=f"run it again to go on; the report is in {archive}/runs/{report.run_id}.jsonl",
         )
     return report
+
+
+@dataclass(frozen=True)
+class _LiveSettings:
+    """How to build the live fetcher when no source is given."""
+
+    contact: str | None
+    mode: FetchMode
+    transport: httpx.AsyncBaseTransport | None
+    max_wait: float | None
+    on_wait: WaitAnnouncer
 
 
 class _Run:
@@ -105,10 +123,8 @@ class _Run:
     async def go(
         self,
         source: PageSource | None,
-        contact: str | None,
-        mode: FetchMode,
+        live: _LiveSettings,
         every_value: bool,
-        transport: httpx.AsyncBaseTransport | None,
         stop_on_sigterm: bool,
     ) -> None:
         pages = self.recipe.plan(every_value=every_value)
@@ -124,7 +140,13 @@ class _Run:
                 writer = stack.enter_context(ArchiveWriter(self.archive))
                 if source is None:
                     fetcher = live_source(
-                        self.recipe, self.archive, contact=contact, mode=mode, transport=transport
+                        self.recipe,
+                        self.archive,
+                        contact=live.contact,
+                        mode=live.mode,
+                        transport=live.transport,
+                        max_wait=live.max_wait,
+                        on_wait=live.on_wait,
                     )
                     source = await stack.enter_async_context(fetcher)
                 for page in pages:
@@ -156,11 +178,15 @@ def live_source(
     contact: str | None = None,
     mode: FetchMode = "normal",
     transport: httpx.AsyncBaseTransport | None = None,
+    max_wait: float | None = None,
+    on_wait: WaitAnnouncer = log_wait,
 ) -> Fetcher:
     """The polite live fetcher for ``recipe``, caching inside a local ``archive``.
 
     The contact is ``contact``, else the recipe's, else the user's configured one; without any,
-    FetchError (harvester does not fetch from live sites anonymously).
+    FetchError (harvester does not fetch from live sites anonymously). The longest single wait
+    is ``max_wait``, else the recipe's ``[fetch] max_wait``; waits over five seconds go to
+    ``on_wait`` (by default a warning on the ``harvester.fetch`` logger).
     """
     identity = Identity.from_contact(
         contact or recipe.contact or configured_contact(), where=str(recipe.path)
@@ -171,6 +197,8 @@ def live_source(
         mode=mode,
         min_interval=recipe.fetch.delay or 0.0,  # no delay: the site's Crawl-delay governs
         transport=transport,
+        limits=FetchLimits(max_wait=recipe.fetch.max_wait if max_wait is None else max_wait),
+        on_wait=on_wait,
     )
 
 

@@ -121,3 +121,27 @@ def test_versions_json_writes_partition_values_as_the_run_report_does(
     (version,) = json.loads(listed.stdout)
     assert outcome["partition"] == {"season": 2026}  # a JSON number in the run report …
     assert version["partition"] == {"season": 2026}  # … and in the version listing alike
+
+
+def test_a_crawl_delay_over_max_wait_skips_the_site_and_says_how_to_accept_it(
+    demo_site_factory: Factory, tmp_path: Path
+) -> None:
+    site = demo_site_factory(crawl_delay=2.0)
+    args = ["harvest", str(RECIPES / "league-standings.toml"), "--archive", str(tmp_path)]
+    args += ["--param", f"site={site.base_url}", "--max-wait", "1"]
+    result = CliRunner().invoke(app, args)
+    assert result.exit_code == 1
+    line = result.stdout.splitlines()[0]
+    assert line.startswith("failed\tleague-standings/standings")
+    assert "asks for 2 s between requests" in line and "raise the wait cap (max_wait)" in line
+    assert [record.path for record in site.log] == ["/robots.txt"]  # the page was never asked
+
+
+def test_a_long_wait_is_announced_on_stderr(demo_site_factory: Factory, tmp_path: Path) -> None:
+    # More than five seconds between robots.txt and the page: one line on stderr says so.
+    site = demo_site_factory(crawl_delay=5.2)
+    args = ["harvest", str(RECIPES / "league-standings.toml"), "--archive", str(tmp_path)]
+    result = CliRunner().invoke(app, [*args, "--param", f"site={site.base_url}"])
+    assert result.exit_code == 0, result.stderr
+    notices = [line for line in result.stderr.splitlines() if line.startswith("waiting ")]
+    assert len(notices) == 1 and site.base_url in notices[0]

@@ -124,3 +124,11 @@ def test_a_robots_redirect_to_a_file_url_is_reported_as_such() -> None:
         assert "robots.txt redirects to a file: URL (file:///etc/robots.txt)" in str(caught.value)
         assert "loop" not in str(caught.value)
         assert site.requests_for("/a") == []
+
+
+def test_a_whole_number_of_seconds_given_as_an_int_reads_the_same() -> None:
+    # FetchLimits(max_wait=1) from Python code is an int, not a float; the message must not care.
+    from harvester.fetch.waits import seconds_text
+
+    assert seconds_text(600) == seconds_text(600.0) == "600 s"
+    assert seconds_text(0.5) == "0.5 s"

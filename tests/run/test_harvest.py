@@ -165,3 +165,13 @@ def test_without_a_delay_the_sites_crawl_delay_governs(
             return fetcher.pacer.interval(host_key(page))
 
     assert asyncio.run(interval_in_force()) == interval
+
+
+def test_the_recipes_max_wait_reaches_the_fetcher(
+    demo_site_factory: Factory, tmp_path: Path
+) -> None:
+    site = demo_site_factory(crawl_delay=2.0)
+    standings = recipe("league-standings", site)
+    strict = dataclasses.replace(standings, fetch=dataclasses.replace(standings.fetch, max_wait=1))
+    (outcome,) = harvest(strict, archive=str(tmp_path)).outcomes
+    assert outcome.status == "failed" and "over the 1 s cap" in outcome.message
