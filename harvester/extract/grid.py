@@ -44,8 +44,8 @@ __all__ = [
 
 _ROW_GROUPS = frozenset({"thead", "tbody", "tfoot"})
 _CELL_TAGS = frozenset({"td", "th"})
-# Inside a cell, these make its text need cell_text: br reads as a space, and nested tables,
-# scripts, styles and templates are left out.
+# Inside a cell, these make its text need cell_text: br reads as a space, a nested table's
+# text is walked (its scripts left out too), and scripts, styles and templates are left out.
 _CAREFUL_TEXT_TAGS = frozenset({"br", "table", "script", "style", "template"})
 # th cells and stray children of tr (script, form) are both "tr > :not(td)".
 _CAREFUL_SELECTOR = "td[colspan], td[rowspan], br, table, script, style, template, tr > :not(td)"
@@ -85,10 +85,12 @@ class _GridBuilder:
                     spanning.append(node)
                 if tag == "th" and (parent := node.parent) is not None:
                     careful_rows.add(parent.mem_id)
+            elif (parent := node.parent) is not None and parent.tag == "tr":
+                # A script or form among the cells: checked before the text tags, since a
+                # script here is no cell at all (§4.9.12.1 "cells"), not text inside one.
+                careful_rows.add(parent.mem_id)
             elif tag in _CAREFUL_TEXT_TAGS:
                 careful_text_parts.append(node)
-            elif (parent := node.parent) is not None and parent.tag == "tr":
-                careful_rows.add(parent.mem_id)  # a script or form among the cells
         # Element handles are new Python objects on every access; their mem_id names the element.
         self.spanning_ids = {node.mem_id for node in spanning}
         careful_text_cells = self._cells_containing(careful_text_parts)
@@ -186,7 +188,11 @@ class _GridBuilder:
             if y == len(grid.text_rows):
                 if tr.mem_id not in self.careful_row_ids:
                     # A plain row: td cells only, no spans, no slot taken from above.
-                    texts = collapsed([cell.text_lexbor() for cell in tr.iter()])
+                    # Only element children are cells: iter() also yields comments (HTML
+                    # §4.9.12.1 "cells" walks td and th children; a plain row has no th).
+                    texts = collapsed(
+                        [cell.text_lexbor() for cell in tr.iter() if cell.is_element_node]
+                    )
                     grid.text_rows.append(texts)
                     grid.header_flags.append(None)
                     grid.nodes.append(None)
