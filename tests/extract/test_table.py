@@ -230,3 +230,36 @@ def test_bytes_that_are_not_utf8_fall_back_to_windows_1252() -> None:
     # 0x93/0x94 are curly quotes in windows-1252 (Encoding Standard index) and invalid UTF-8.
     page = read_page(b"<table><tr><th>q</th></tr><tr><td>\x93x\x94</td></tr></table>")
     assert extract_table(page).table.column("q").to_pylist() == ["\u201cx\u201d"]
+
+
+# --- footnote markers --------------------------------------------------------------------------
+
+MARKED = """
+<table>
+<thead><tr><th>Player</th><th>Goals</th></tr></thead>
+<tbody>
+<tr><td>Lea Varn<sup>§</sup></td><td>12<sup>¶</sup></td></tr>
+<tr><td>Ola Berg <sup>‖</sup></td><td>7<sup>*</sup></td></tr>
+<tr><td>Kai Lund<sup>†‡</sup></td><td>1,204<sup>#</sup></td></tr>
+<tr><td>Mira Tavik</td><td>3</td></tr>
+</tbody>
+</table>
+"""
+
+
+def test_section_pilcrow_and_double_bar_are_default_markers_also_inside_sup() -> None:
+    # Common practice, no published source: §, ¶ and ‖ mark footnotes as *, †, ‡, + and # do,
+    # and a site often sets the marker as <sup>; a <sup> at the end of the cell adds its text
+    # to the end of the cell's text content, so its marker is split off like a plain one.
+    rule = TableRule(
+        columns=(
+            ColumnRule(name="player", markers_to="player_notes"),
+            ColumnRule(name="goals", markers_to="goal_notes"),
+        )
+    )
+    table = extract_table(MARKED, rule).table
+    assert table.column("player").to_pylist() == ["Lea Varn", "Ola Berg", "Kai Lund", "Mira Tavik"]
+    assert table.column("player_notes").to_pylist() == ["§", "‖", "†‡", None]
+    assert table.column("goals").type == pa.int64()  # every cell is a number once split
+    assert table.column("goals").to_pylist() == [12, 7, 1204, 3]
+    assert table.column("goal_notes").to_pylist() == ["¶", "*", "#", None]
