@@ -15,6 +15,7 @@ from __future__ import annotations
 
 from selectolax.lexbor import LexborNode
 
+from harvester.errors import ExtractError
 from harvester.extract.cells import (
     MAX_COLGROUP_SPAN,
     MAX_COLSPAN,
@@ -31,6 +32,7 @@ from harvester.extract.grid_model import Cell, Grid
 # callers of the grid.
 __all__ = [
     "MAX_COLSPAN",
+    "MAX_GRID_SLOTS",
     "MAX_ROWSPAN",
     "Cell",
     "Grid",
@@ -42,6 +44,16 @@ __all__ = [
 ]
 
 
+# The most slots (columns × rows) one grid may have. A real statistics table has a few hundred
+# thousand; at about 100 bytes a slot, 10 million is about a gigabyte. Without a budget one
+# attribute per row (colspan="1000" on 20,000 rows, which is under 1 MB of HTML) asks for 20
+# million slots and gigabytes of memory [project decision].
+MAX_GRID_SLOTS = 10_000_000
+_BUDGET_HINT = (
+    "check that the selector names the table you want; a table this large is likely broken or "
+    "hostile. To read it anyway, pass a larger max_grid_slots to extract_table"
+)
+
 _ROW_GROUPS = frozenset({"thead", "tbody", "tfoot"})
 _CELL_TAGS = frozenset({"td", "th"})
 # Inside a cell, these make its text need cell_text: br reads as a space, a nested table's
@@ -51,13 +63,21 @@ _CAREFUL_TEXT_TAGS = frozenset({"br", "table", "script", "style", "template"})
 _CAREFUL_SELECTOR = "td[colspan], td[rowspan], br, table, script, style, template, tr > :not(td)"
 
 
-def build_grid(table: LexborNode, *, drop_hidden: bool = False) -> Grid:
+def build_grid(
+    table: LexborNode,
+    *,
+    drop_hidden: bool = False,
+    max_slots: int = MAX_GRID_SLOTS,
+    where: str = "table",
+) -> Grid:
     """Form the grid of ``table`` as HTML §4.9.12.1 does (with the row-group cut above).
 
     With ``drop_hidden``, rows and cells hidden by inline ``display: none`` (or ``hidden``)
     are left out before the grid is formed, as a browser leaves them out of its layout.
+    Raises ExtractError, naming ``where`` and the row or span at fault, before the grid
+    would grow past ``max_slots`` slots (columns × rows).
     """
-    return _GridBuilder(table, drop_hidden).build()
+    return _GridBuilder(table, drop_hidden, max_slots, where).build()
 
 
 def _parents(nodes: list[LexborNode]) -> set[int]:
@@ -67,9 +87,12 @@ def _parents(nodes: list[LexborNode]) -> set[int]:
 class _GridBuilder:
     """The state of one run of the table-forming algorithm."""
 
-    def __init__(self, table: LexborNode, drop_hidden: bool) -> None:
+    def __init__(self, table: LexborNode, drop_hidden: bool, max_slots: int, where: str) -> None:
         self.table = table
         self.drop_hidden = drop_hidden
+        self.max_slots = max_slots
+        self.where = where
+        self.total_rows = 0  # known before any slot is made: every row a row group holds
         self.grid = Grid([], [])
         self.growing: list[tuple[LexborNode, str, bool, int, int, int]] = []
         # One selector pass over the whole table finds everything that needs care, so that a
@@ -105,7 +128,18 @@ class _GridBuilder:
 
     def build(self) -> Grid:
         """Run the algorithm once: row groups in processing order, then short rows padded."""
-        for kind, rows in self._row_groups():
+        groups = self._row_groups()
+        if self.hidden_ids:
+            groups = [
+                (kind, [row for row in rows if row.mem_id not in self.hidden_ids])
+                for kind, rows in groups
+            ]
+        # Rowspans are cut at their row group's end, so the grid has exactly these rows, and
+        # every row is padded to the full width: the slot count is width × rows, known early.
+        self.total_rows = sum(len(rows) for _, rows in groups)
+        if self.grid.width:
+            self._check_budget(self.grid.width, "the column groups (colgroup and col spans)")
+        for kind, rows in groups:
             self._process_row_group(kind, rows)
         self._pad_short_rows()
         return self.grid
@@ -176,8 +210,6 @@ class _GridBuilder:
 
     def _process_row_group(self, kind: str, rows: list[LexborNode]) -> None:
         grid = self.grid
-        if self.hidden_ids:
-            rows = [row for row in rows if row.mem_id not in self.hidden_ids]
         group_end = len(grid.row_nodes) + len(rows)
         for tr in rows:
             y = len(grid.row_nodes)
@@ -198,6 +230,7 @@ class _GridBuilder:
                     grid.nodes.append(None)
                     grid.plain_widths[y] = len(texts)
                     if len(texts) > grid.width:
+                        self._check_budget(len(texts), f"grid row {y + 1} ({len(texts):,} cells)")
                         grid.width = len(texts)
                     continue
                 self._add_row()
@@ -255,16 +288,29 @@ class _GridBuilder:
                     grid.overlaps.append((x, y))
                 x += 1
                 if x > grid.width:
+                    self._check_budget(x, f"grid row {y + 1} (its cell {x:,})")
                     grid.width = x
                 continue
+            if x + width > grid.width:
+                self._check_budget(x + width, _describe_span(node, x, y))
             grid.spans[(x, y)] = (width, height)
             for row_y in range(y, y + (1 if grows else height)):
                 self._claim(node, text, header, x, y, width, row_y)
             if grows and height > 1:
                 self.growing.append((node, text, header, x, y, width))
             x += width
-            if x > grid.width:
-                grid.width = x
+            grid.width = max(grid.width, x)
+
+    def _check_budget(self, width: int, culprit: str) -> None:
+        """Stop before a grid ``width`` columns wide would pass the slot budget."""
+        slots = width * self.total_rows
+        if slots > self.max_slots:
+            raise ExtractError(
+                f"{self.where}: the grid would have {slots:,} slots ({width:,} columns × "
+                f"{self.total_rows:,} rows), over the budget of {self.max_slots:,}; "
+                f"{culprit} passed it",
+                hint=_BUDGET_HINT,
+            )
 
     def _claim(
         self,
@@ -302,3 +348,14 @@ class _GridBuilder:
             header_flags[slot_x] = header
             nodes[slot_x] = node
             grid.owners[(slot_x, row_y)] = (x, anchor_y)
+
+
+def _describe_span(node: LexborNode, x: int, y: int) -> str:
+    """The spanning cell at (x, y) as an error names it: where it is and what it says."""
+    attributes = node.attributes
+    spans = " ".join(
+        f'{name}="{value[:20]}{"…" if len(value) > 20 else ""}"'
+        for name in ("colspan", "rowspan")
+        if (value := attributes.get(name)) is not None
+    )
+    return f"the {node.tag} at grid row {y + 1}, column {x + 1} ({spans})"
