@@ -94,7 +94,8 @@ class _GridBuilder:
         self.where = where
         self.total_rows = 0  # known before any slot is made: every row a row group holds
         self.grid = Grid([], [])
-        self.growing: list[tuple[LexborNode, str, bool, int, int, int]] = []
+        # Each downward-growing cell: its element, text, th flag, anchor slot and width.
+        self.growing: list[tuple[LexborNode, str, bool, tuple[int, int], int]] = []
         # One selector pass over the whole table finds everything that needs care, so that a
         # plain row (td cells only, no spans, plain text) is read with one comprehension.
         spanning: list[LexborNode] = []
@@ -249,8 +250,8 @@ class _GridBuilder:
         """§4.9.12.1 "growing downward-growing cells": extend each into row ``y``."""
         while len(self.grid.text_rows) <= y:
             self._add_row()
-        for node, text, header, x, anchor_y, width in self.growing:
-            self._claim(node, text, header, x, anchor_y, width, y)
+        for node, text, header, anchor, width in self.growing:
+            self._claim(node, text, header, anchor, width, y)
 
     def _process_row(self, y: int, cells: list[LexborNode], group_end: int) -> None:
         grid = self.grid
@@ -293,11 +294,14 @@ class _GridBuilder:
                 continue
             if x + width > grid.width:
                 self._check_budget(x + width, _describe_span(node, x, y))
-            grid.spans[(x, y)] = (width, height)
+            # One anchor tuple per cell, shared by every slot it covers in every row: on a
+            # grid of spans the owners map holds millions of them.
+            anchor = (x, y)
+            grid.spans[anchor] = (width, height)
             for row_y in range(y, y + (1 if grows else height)):
-                self._claim(node, text, header, x, y, width, row_y)
+                self._claim(node, text, header, anchor, width, row_y)
             if grows and height > 1:
-                self.growing.append((node, text, header, x, y, width))
+                self.growing.append((node, text, header, anchor, width))
             x += width
             grid.width = max(grid.width, x)
 
@@ -317,13 +321,13 @@ class _GridBuilder:
         node: LexborNode,
         text: str,
         header: bool,
-        x: int,
-        anchor_y: int,
+        anchor: tuple[int, int],
         width: int,
         row_y: int,
     ) -> None:
-        """Let the cell anchored at (x, anchor_y) cover its slots in row ``row_y``."""
+        """Let the cell anchored at ``anchor`` (x, y) cover its slots in row ``row_y``."""
         grid = self.grid
+        x = anchor[0]
         while len(grid.text_rows) <= row_y:
             self._add_row()
         end = x + width
@@ -347,7 +351,7 @@ class _GridBuilder:
             texts[slot_x] = text
             header_flags[slot_x] = header
             nodes[slot_x] = node
-            grid.owners[(slot_x, row_y)] = (x, anchor_y)
+            grid.owners[(slot_x, row_y)] = anchor
 
 
 def _describe_span(node: LexborNode, x: int, y: int) -> str:
