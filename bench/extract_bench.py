@@ -14,7 +14,13 @@ as it normally does, and (e) that again with the collector switched off. It prin
 collections that runs of (d) trigger. (a), (b), (d) and (e) are timed turn about; for (d) and
 (e) it shows mean and median, since a full collection comes only every few runs.
 
-Usage: .venv/bin/python bench/extract_bench.py [--rows 5000] [--repeats 5]
+With ``--hostile`` it instead reads pages built to hurt an extractor, each in a fresh child
+process, and prints the wall time, the peak resident memory and the outcome (the one-line error,
+or the table's size): colspan="1000000000" on 20,000 rows, rowspan="0" on 3,000 rows, one row
+of 100,000 cells under 100,000 equal header cells, and a selector that misses on a page of
+50,000 tables. The aim for each is well under 20 s and 1.5 GB, and no traceback.
+
+Usage: .venv/bin/python bench/extract_bench.py [--rows 5000] [--repeats 5] [--hostile]
 """
 
 from __future__ import annotations
@@ -188,6 +194,66 @@ def peak_memory_kib(data: bytes) -> tuple[int, int]:
     return int(before), int(after)
 
 
+def hostile_pages() -> dict[str, tuple[str, str]]:
+    """Pages built to hurt an extractor, each with the selector to ask for."""
+    wide_row = "<tr>" + "<th>x</th>" * 100_000 + "</tr><tr>" + "<td>1</td>" * 100_000 + "</tr>"
+    many = "".join(f'<table class="t"><tr><td>{i}</td></tr></table>' for i in range(50_000))
+    return {
+        'colspan="1000000000" × 20,000 rows': (
+            "<table>" + '<tr><td colspan="1000000000">x</td></tr>' * 20_000 + "</table>",
+            "table",
+        ),
+        'rowspan="0" × 3,000 rows': (
+            "<table>" + '<tr><td rowspan="0">x</td></tr>' * 3_000 + "</table>",
+            "table",
+        ),
+        "one row of 100,000 cells, all headers 'x'": (f"<table>{wide_row}</table>", "table"),
+        "50,000 tables, a selector that misses": (many, "table#missing"),
+    }
+
+
+_HOSTILE_SCRIPT = """
+import sys, time
+from harvester import HarvesterError, TableRule, extract_table
+
+def status(field):
+    with open("/proc/self/status") as f:
+        for line in f:
+            if line.startswith(field + ":"):
+                return int(line.split()[1])
+
+data = open(sys.argv[1], "rb").read()
+start = time.perf_counter()
+try:
+    table = extract_table(data, TableRule(select=sys.argv[2], header_rows=1)).table
+    outcome = f"read: {table.num_rows} rows × {table.num_columns} columns"
+except HarvesterError as error:
+    text = str(error)
+    outcome = f"error ({len(text):,} characters): {text[:150]}…"
+print(f"{time.perf_counter() - start:.2f} {status('VmHWM')} {outcome}")
+"""
+
+
+def report_hostile() -> None:
+    """Read each hostile page in a fresh process; print time, peak memory and the outcome."""
+    for label, (html, select) in hostile_pages().items():
+        with tempfile.NamedTemporaryFile(suffix=".html") as page:
+            page.write(html.encode())
+            page.flush()
+            out = subprocess.run(
+                [sys.executable, "-c", _HOSTILE_SCRIPT, page.name, select],
+                capture_output=True,
+                text=True,
+                check=False,
+            )
+        if out.returncode != 0:
+            print(f"{label}: FAILED, exit {out.returncode}: {out.stderr.strip()[-300:]}")
+            continue
+        seconds, peak_kib, outcome = out.stdout.strip().split(" ", 2)
+        print(f"{label} ({len(html) / 1000:,.0f} KB):")
+        print(f"  {float(seconds):6.2f} s, peak RSS {int(peak_kib) / 1024:,.0f} MiB; {outcome}")
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--rows", type=int, default=5000)
@@ -198,7 +264,13 @@ def main() -> None:
         default=125_000,
         help="rows of the page for the memory figure (125,000 rows is about 50 MB)",
     )
+    parser.add_argument(
+        "--hostile", action="store_true", help="time the hostile pages instead (see above)"
+    )
     args = parser.parse_args()
+    if args.hostile:
+        report_hostile()
+        return
 
     from selectolax.lexbor import LexborHTMLParser
 

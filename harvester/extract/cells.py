@@ -2,8 +2,8 @@
 
 Span values follow HTML's "rules for parsing non-negative integers" (§2.3.4.2) and the clamps of
 "forming a table" (§4.9.12.1). Cell text is the DOM text content with ``<br>`` read as a space
-and whitespace (NBSP too) collapsed; text inside nested tables, scripts, styles and templates is
-left out.
+and whitespace (NBSP too) collapsed: the text of a nested table counts (textContent includes it),
+while the content of scripts, styles and templates is left out.
 """
 
 from __future__ import annotations
@@ -27,9 +27,10 @@ MAX_COLSPAN = 1000  # HTML §4.9.12.1 step "colspan": values above 1000 are trea
 MAX_ROWSPAN = 65534  # HTML §4.9.12.1 step "rowspan": values above 65534 are treated as 65534
 MAX_COLGROUP_SPAN = 1000  # HTML §4.9.12.1 "column groups": span above 1000 is treated as 1000
 
-# Elements whose text is not part of a cell's text: nested tables belong to themselves,
-# and script/style/template hold no visible text.
-_SKIPPED_TAGS = frozenset({"table", "script", "style", "template"})
+# Elements whose content is not part of a cell's text: script, style and template hold no
+# text a reader sees. A nested table's text is part of its cell's text content (DOM
+# textContent), though its cells are not cells of the outer table.
+_SKIPPED_TAGS = frozenset({"script", "style", "template"})
 _DISPLAY_NONE = re.compile(r"display\s*:\s*none", re.IGNORECASE)
 _OTHER_SPACE = re.compile(r"[^\S ]")  # whitespace other than U+0020
 _LEADING_INT = re.compile(r"[\t\n\f\r ]*([+-]?)([0-9]+)")
@@ -82,8 +83,9 @@ def is_hidden(node: LexborNode) -> bool:
 def cell_text(node: LexborNode, *, drop_hidden: bool = False) -> str:
     """A cell's text content, ``<br>`` read as a space, whitespace (NBSP too) collapsed.
 
-    Text inside nested tables, scripts, styles and templates is left out; with
-    ``drop_hidden``, so is text inside elements hidden by inline ``display: none``.
+    A nested table's text counts, as in DOM ``textContent``; the content of scripts, styles
+    and templates is left out, and with ``drop_hidden`` so is text inside elements hidden by
+    inline ``display: none``.
     """
     parts: list[str] = []
     _collect_text(node, parts, drop_hidden)

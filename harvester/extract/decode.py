@@ -12,6 +12,8 @@ from __future__ import annotations
 import codecs
 import re
 
+from harvester.extract.encoding_labels import CODECS, encoding_for_label
+
 __all__ = ["decode_html", "sniff_encoding"]
 
 _BOMS = (
@@ -23,30 +25,6 @@ _BOMS = (
 _PRESCAN_TOKEN = re.compile(rb"<!--.*?-->|<meta[\s/][^>]*>", re.I | re.S)
 _ATTRIBUTE = re.compile(rb"""([^\s=/>]+)\s*(?:=\s*("[^"]*"|'[^']*'|[^\s>]+))?""")
 _CHARSET_IN_CONTENT = re.compile(rb"""charset\s*=\s*["']?([^\s"';]+)""", re.I)
-# Encoding Standard §4.2 ("Names and labels"): every label of windows-1252. Python's codec
-# registry disagrees on several (it reads "l1" as Latin-1 and "ascii" as ASCII), so we map
-# them ourselves.
-_WINDOWS_1252_LABELS = frozenset(
-    {
-        "ansi_x3.4-1968",
-        "ascii",
-        "cp1252",
-        "cp819",
-        "csisolatin1",
-        "ibm819",
-        "iso-8859-1",
-        "iso-ir-100",
-        "iso8859-1",
-        "iso88591",
-        "iso_8859-1",
-        "iso_8859-1:1987",
-        "l1",
-        "latin1",
-        "us-ascii",
-        "windows-1252",
-        "x-cp1252",
-    }
-)
 _WINDOWS_1252 = "harvester-windows-1252"
 
 
@@ -58,18 +36,13 @@ def _c1_passthrough(error: UnicodeError) -> tuple[str, int]:
 
 
 codecs.register_error(_WINDOWS_1252, _c1_passthrough)
+_X_USER_DEFINED = {byte: 0xF780 + byte - 0x80 for byte in range(0x80, 0x100)}
 
 
 def _normalise(label: str | None) -> str | None:
-    if not label:
-        return None
-    label = label.strip().lower()
-    if label in _WINDOWS_1252_LABELS:
-        return "windows-1252"
-    try:
-        return codecs.lookup(label).name
-    except LookupError:
-        return None
+    """The codec for an Encoding Standard label (encoding_labels.py), or None if unknown."""
+    encoding = encoding_for_label(label) if label else None
+    return CODECS[encoding] if encoding else None
 
 
 def sniff_encoding(data: bytes, declared: str | None = None) -> tuple[str, bool]:
@@ -82,8 +55,11 @@ def sniff_encoding(data: bytes, declared: str | None = None) -> tuple[str, bool]
         return from_transport, False
     from_meta = _prescan(data[:1024])
     if from_meta:
-        # §13.2.3.2: a meta naming UTF-16 means UTF-8 (the bytes were already ASCII-compatible).
-        return ("utf-8" if from_meta.startswith("utf-16") else from_meta), False
+        # §13.2.3.2: a meta naming UTF-16 means UTF-8 (the bytes were already ASCII-compatible),
+        # and one naming x-user-defined means windows-1252.
+        if from_meta.startswith("utf-16"):
+            return "utf-8", False
+        return ("windows-1252" if from_meta == "x-user-defined" else from_meta), False
     try:
         data.decode("utf-8")
     except UnicodeDecodeError:
@@ -118,4 +94,11 @@ def decode_html(data: bytes, declared: str | None = None) -> str:
         data = data[len(codecs.BOM_UTF8) if encoding == "utf-8" else 2 :]
     if encoding == "windows-1252":
         return data.decode("cp1252", errors=_WINDOWS_1252)
+    if encoding == "replacement":
+        # Encoding Standard §14.1: the whole input reads as one U+FFFD (these encodings were
+        # used to smuggle markup past filters), and empty input as nothing.
+        return "\ufffd" if data else ""
+    if encoding == "x-user-defined":
+        # Encoding Standard §14.5: bytes 80-FF map to U+F780-U+F7FF, ASCII stays ASCII.
+        return data.decode("latin-1").translate(_X_USER_DEFINED)
     return data.decode(encoding, errors="replace")

@@ -15,6 +15,7 @@ from __future__ import annotations
 
 from selectolax.lexbor import LexborNode
 
+from harvester.errors import ExtractError
 from harvester.extract.cells import (
     MAX_COLGROUP_SPAN,
     MAX_COLSPAN,
@@ -31,6 +32,7 @@ from harvester.extract.grid_model import Cell, Grid
 # callers of the grid.
 __all__ = [
     "MAX_COLSPAN",
+    "MAX_GRID_SLOTS",
     "MAX_ROWSPAN",
     "Cell",
     "Grid",
@@ -42,22 +44,40 @@ __all__ = [
 ]
 
 
+# The most slots (columns × rows) one grid may have. A real statistics table has a few hundred
+# thousand; at about 100 bytes a slot, 10 million is about a gigabyte. Without a budget one
+# attribute per row (colspan="1000" on 20,000 rows, which is under 1 MB of HTML) asks for 20
+# million slots and gigabytes of memory [project decision].
+MAX_GRID_SLOTS = 10_000_000
+_BUDGET_HINT = (
+    "check that the selector names the table you want; a table this large is likely broken or "
+    "hostile. To read it anyway, pass a larger max_grid_slots to extract_table"
+)
+
 _ROW_GROUPS = frozenset({"thead", "tbody", "tfoot"})
 _CELL_TAGS = frozenset({"td", "th"})
-# Inside a cell, these make its text need cell_text: br reads as a space, and nested tables,
-# scripts, styles and templates are left out.
+# Inside a cell, these make its text need cell_text: br reads as a space, a nested table's
+# text is walked (its scripts left out too), and scripts, styles and templates are left out.
 _CAREFUL_TEXT_TAGS = frozenset({"br", "table", "script", "style", "template"})
 # th cells and stray children of tr (script, form) are both "tr > :not(td)".
 _CAREFUL_SELECTOR = "td[colspan], td[rowspan], br, table, script, style, template, tr > :not(td)"
 
 
-def build_grid(table: LexborNode, *, drop_hidden: bool = False) -> Grid:
+def build_grid(
+    table: LexborNode,
+    *,
+    drop_hidden: bool = False,
+    max_slots: int = MAX_GRID_SLOTS,
+    where: str = "table",
+) -> Grid:
     """Form the grid of ``table`` as HTML §4.9.12.1 does (with the row-group cut above).
 
     With ``drop_hidden``, rows and cells hidden by inline ``display: none`` (or ``hidden``)
     are left out before the grid is formed, as a browser leaves them out of its layout.
+    Raises ExtractError, naming ``where`` and the row or span at fault, before the grid
+    would grow past ``max_slots`` slots (columns × rows).
     """
-    return _GridBuilder(table, drop_hidden).build()
+    return _GridBuilder(table, drop_hidden, max_slots, where).build()
 
 
 def _parents(nodes: list[LexborNode]) -> set[int]:
@@ -67,11 +87,15 @@ def _parents(nodes: list[LexborNode]) -> set[int]:
 class _GridBuilder:
     """The state of one run of the table-forming algorithm."""
 
-    def __init__(self, table: LexborNode, drop_hidden: bool) -> None:
+    def __init__(self, table: LexborNode, drop_hidden: bool, max_slots: int, where: str) -> None:
         self.table = table
         self.drop_hidden = drop_hidden
+        self.max_slots = max_slots
+        self.where = where
+        self.total_rows = 0  # known before any slot is made: every row a row group holds
         self.grid = Grid([], [])
-        self.growing: list[tuple[LexborNode, str, bool, int, int, int]] = []
+        # Each downward-growing cell: its element, text, th flag, anchor slot and width.
+        self.growing: list[tuple[LexborNode, str, bool, tuple[int, int], int]] = []
         # One selector pass over the whole table finds everything that needs care, so that a
         # plain row (td cells only, no spans, plain text) is read with one comprehension.
         spanning: list[LexborNode] = []
@@ -85,10 +109,12 @@ class _GridBuilder:
                     spanning.append(node)
                 if tag == "th" and (parent := node.parent) is not None:
                     careful_rows.add(parent.mem_id)
+            elif (parent := node.parent) is not None and parent.tag == "tr":
+                # A script or form among the cells: checked before the text tags, since a
+                # script here is no cell at all (§4.9.12.1 "cells"), not text inside one.
+                careful_rows.add(parent.mem_id)
             elif tag in _CAREFUL_TEXT_TAGS:
                 careful_text_parts.append(node)
-            elif (parent := node.parent) is not None and parent.tag == "tr":
-                careful_rows.add(parent.mem_id)  # a script or form among the cells
         # Element handles are new Python objects on every access; their mem_id names the element.
         self.spanning_ids = {node.mem_id for node in spanning}
         careful_text_cells = self._cells_containing(careful_text_parts)
@@ -103,7 +129,18 @@ class _GridBuilder:
 
     def build(self) -> Grid:
         """Run the algorithm once: row groups in processing order, then short rows padded."""
-        for kind, rows in self._row_groups():
+        groups = self._row_groups()
+        if self.hidden_ids:
+            groups = [
+                (kind, [row for row in rows if row.mem_id not in self.hidden_ids])
+                for kind, rows in groups
+            ]
+        # Rowspans are cut at their row group's end, so the grid has exactly these rows, and
+        # every row is padded to the full width: the slot count is width × rows, known early.
+        self.total_rows = sum(len(rows) for _, rows in groups)
+        if self.grid.width:
+            self._check_budget(self.grid.width, "the column groups (colgroup and col spans)")
+        for kind, rows in groups:
             self._process_row_group(kind, rows)
         self._pad_short_rows()
         return self.grid
@@ -174,8 +211,6 @@ class _GridBuilder:
 
     def _process_row_group(self, kind: str, rows: list[LexborNode]) -> None:
         grid = self.grid
-        if self.hidden_ids:
-            rows = [row for row in rows if row.mem_id not in self.hidden_ids]
         group_end = len(grid.row_nodes) + len(rows)
         for tr in rows:
             y = len(grid.row_nodes)
@@ -186,12 +221,17 @@ class _GridBuilder:
             if y == len(grid.text_rows):
                 if tr.mem_id not in self.careful_row_ids:
                     # A plain row: td cells only, no spans, no slot taken from above.
-                    texts = collapsed([cell.text_lexbor() for cell in tr.iter()])
+                    # Only element children are cells: iter() also yields comments (HTML
+                    # §4.9.12.1 "cells" walks td and th children; a plain row has no th).
+                    texts = collapsed(
+                        [cell.text_lexbor() for cell in tr.iter() if cell.is_element_node]
+                    )
                     grid.text_rows.append(texts)
                     grid.header_flags.append(None)
                     grid.nodes.append(None)
                     grid.plain_widths[y] = len(texts)
                     if len(texts) > grid.width:
+                        self._check_budget(len(texts), f"grid row {y + 1} ({len(texts):,} cells)")
                         grid.width = len(texts)
                     continue
                 self._add_row()
@@ -210,8 +250,8 @@ class _GridBuilder:
         """§4.9.12.1 "growing downward-growing cells": extend each into row ``y``."""
         while len(self.grid.text_rows) <= y:
             self._add_row()
-        for node, text, header, x, anchor_y, width in self.growing:
-            self._claim(node, text, header, x, anchor_y, width, y)
+        for node, text, header, anchor, width in self.growing:
+            self._claim(node, text, header, anchor, width, y)
 
     def _process_row(self, y: int, cells: list[LexborNode], group_end: int) -> None:
         grid = self.grid
@@ -249,29 +289,45 @@ class _GridBuilder:
                     grid.overlaps.append((x, y))
                 x += 1
                 if x > grid.width:
+                    self._check_budget(x, f"grid row {y + 1} (its cell {x:,})")
                     grid.width = x
                 continue
-            grid.spans[(x, y)] = (width, height)
+            if x + width > grid.width:
+                self._check_budget(x + width, _describe_span(node, x, y))
+            # One anchor tuple per cell, shared by every slot it covers in every row: on a
+            # grid of spans the owners map holds millions of them.
+            anchor = (x, y)
+            grid.spans[anchor] = (width, height)
             for row_y in range(y, y + (1 if grows else height)):
-                self._claim(node, text, header, x, y, width, row_y)
+                self._claim(node, text, header, anchor, width, row_y)
             if grows and height > 1:
-                self.growing.append((node, text, header, x, y, width))
+                self.growing.append((node, text, header, anchor, width))
             x += width
-            if x > grid.width:
-                grid.width = x
+            grid.width = max(grid.width, x)
+
+    def _check_budget(self, width: int, culprit: str) -> None:
+        """Stop before a grid ``width`` columns wide would pass the slot budget."""
+        slots = width * self.total_rows
+        if slots > self.max_slots:
+            raise ExtractError(
+                f"{self.where}: the grid would have {slots:,} slots ({width:,} columns × "
+                f"{self.total_rows:,} rows), over the budget of {self.max_slots:,}; "
+                f"{culprit} passed it",
+                hint=_BUDGET_HINT,
+            )
 
     def _claim(
         self,
         node: LexborNode,
         text: str,
         header: bool,
-        x: int,
-        anchor_y: int,
+        anchor: tuple[int, int],
         width: int,
         row_y: int,
     ) -> None:
-        """Let the cell anchored at (x, anchor_y) cover its slots in row ``row_y``."""
+        """Let the cell anchored at ``anchor`` (x, y) cover its slots in row ``row_y``."""
         grid = self.grid
+        x = anchor[0]
         while len(grid.text_rows) <= row_y:
             self._add_row()
         end = x + width
@@ -295,4 +351,15 @@ class _GridBuilder:
             texts[slot_x] = text
             header_flags[slot_x] = header
             nodes[slot_x] = node
-            grid.owners[(slot_x, row_y)] = (x, anchor_y)
+            grid.owners[(slot_x, row_y)] = anchor
+
+
+def _describe_span(node: LexborNode, x: int, y: int) -> str:
+    """The spanning cell at (x, y) as an error names it: where it is and what it says."""
+    attributes = node.attributes
+    spans = " ".join(
+        f'{name}="{value[:20]}{"…" if len(value) > 20 else ""}"'
+        for name in ("colspan", "rowspan")
+        if (value := attributes.get(name)) is not None
+    )
+    return f"the {node.tag} at grid row {y + 1}, column {x + 1} ({spans})"

@@ -99,7 +99,8 @@ class Grid:
             return nodes[x]
         if x >= self.plain_widths[y]:
             return None
-        return list(self.row_nodes[y].iter())[x]
+        # A plain row's cells are its element children (comments are not cells).
+        return [cell for cell in self.row_nodes[y].iter() if cell.is_element_node][x]
 
     def owner(self, x: int, y: int) -> tuple[int, int] | None:
         """The anchor slot of the cell covering (x, y), or None if no cell covers it."""

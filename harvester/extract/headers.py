@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import re
 import unicodedata
+from collections import Counter
 from collections.abc import Sequence
 
 from harvester.errors import ExtractError
@@ -80,16 +81,22 @@ def deduplicate(names: Sequence[str]) -> list[str]:
     """Make names unique: the second ``pct`` becomes ``pct_2``, the third ``pct_3``."""
     taken = set(names)
     seen: set[str] = set()
+    # The next number to try for each repeated name. Numbers given to a name only grow and
+    # taken names stay taken, so the search resumes where it last stopped: every number is
+    # tried once, and 100,000 copies of one name cost linear time, not quadratic.
+    next_number: dict[str, int] = {}
     unique: list[str] = []
     for name in names:
         if name not in seen:
             seen.add(name)
             unique.append(name)
             continue
-        number = 2
-        while f"{name}_{number}" in taken:
-            number += 1
+        number = next_number.get(name, 2)
         candidate = f"{name}_{number}"
+        while candidate in taken:
+            number += 1
+            candidate = f"{name}_{number}"
+        next_number[name] = number + 1
         taken.add(candidate)
         seen.add(candidate)
         unique.append(candidate)
@@ -101,14 +108,15 @@ def rename_columns(
 ) -> list[str]:
     """Apply a rename map; a name the table does not have is an error, not a silent no-op."""
     mapping = dict(renames)
-    missing = [old for old in mapping if old not in names]
+    known = set(names)
+    missing = [old for old in mapping if old not in known]
     if missing:
         raise ExtractError(
             f"{where}: rename names column(s) {', '.join(missing)} that the table does not have",
             hint=f"the columns are: {', '.join(names)}",
         )
     renamed = [mapping.get(name, name) for name in names]
-    duplicates = sorted({name for name in renamed if renamed.count(name) > 1})
+    duplicates = sorted(name for name, count in Counter(renamed).items() if count > 1)
     if duplicates:
         raise ExtractError(
             f"{where}: rename gives two columns the name {', '.join(duplicates)}",

@@ -16,8 +16,17 @@ from selectolax.lexbor import LexborHTMLParser, LexborNode, SelectolaxError
 
 from harvester.errors import ExtractError, TableNotFoundError
 
-__all__ = ["FROM_COMMENT_ATTRIBUTE", "LocatedTable", "Page", "describe_candidates", "locate_table"]
+__all__ = [
+    "FROM_COMMENT_ATTRIBUTE",
+    "MAX_LISTED_TABLES",
+    "LocatedTable",
+    "Page",
+    "describe_candidates",
+    "locate_table",
+]
 
+# The most tables an error lists: a page of 50,000 tables must not make a 2 MB message.
+MAX_LISTED_TABLES = 20
 # Set on each table that came from a comment, in the second parse, to tell it from page tables.
 FROM_COMMENT_ATTRIBUTE = "data-harvester-from-comment"
 _COMMENT_WITH_TABLE = re.compile(r"<!--((?:(?!-->).)*?<table\b(?:(?!-->).)*?)-->", re.S | re.I)
@@ -156,15 +165,21 @@ def locate_table(page: Page, select: str = "table", index: int | None = None) ->
     else:
         problem = f"selector {select!r} matched {len(matches)} tables"
         hint = "make the selector name one table, or give an index (--index N, index = N)"
-    listing = describe_candidates(page.tables(select) if matches else page.all_tables())
+    listing = describe_candidates(matches or page.all_tables())
     raise TableNotFoundError(f"{page.source}: {problem}; {listing}", hint=hint)
 
 
-def describe_candidates(tables: list[LocatedTable]) -> str:
-    """One line listing tables by id, classes, caption, first header cells and size."""
+def describe_candidates(tables: list[LocatedTable], limit: int = MAX_LISTED_TABLES) -> str:
+    """One line listing tables by id, classes, caption, first header cells and size.
+
+    Only the first ``limit`` are described (each costs a grid); the rest are counted.
+    """
     if not tables:
         return "the page has no tables"
-    return "tables: " + " | ".join(_describe(table) for table in tables)
+    listing = "tables: " + " | ".join(_describe(table) for table in tables[:limit])
+    if len(tables) > limit:
+        listing += f" | … and {len(tables) - limit:,} more"
+    return listing
 
 
 def _describe(located: LocatedTable) -> str:
@@ -177,7 +192,11 @@ def _describe(located: LocatedTable) -> str:
         parts[0] += f"#{attributes['id']}"
     for name in (attributes.get("class") or "").split():
         parts[0] += f".{name}"
-    grid = build_grid(node)
+    try:
+        grid = build_grid(node)
+    except ExtractError:  # over the grid budget: a listing must not fail on one hostile table
+        parts.append("(too large to read)")
+        return " ".join(parts)
     if grid.caption:
         parts.append(f"caption {grid.caption!r}")
     if grid.rows:

@@ -37,7 +37,7 @@ COLUMN_TYPES: tuple[str, ...] = (
 GroupRows = Literal["drop", "column", "keep"]
 
 # Footnote markers sites append to names and numbers (common practice, no published source).
-DEFAULT_MARKERS = "*†‡+#"
+DEFAULT_MARKERS = "*†‡+#§¶‖"
 # Cell texts that mean "no value" (common practice, no published source).
 DEFAULT_NULLS: tuple[str, ...] = ("", "—", "–", "-", "N/A", "n/a")
 

@@ -25,7 +25,7 @@ import pyarrow as pa
 from harvester.errors import ExtractError
 from harvester.extract.collector import EXTRACTION_PAUSE
 from harvester.extract.decode import decode_html, sniff_encoding
-from harvester.extract.grid import build_grid
+from harvester.extract.grid import MAX_GRID_SLOTS, build_grid
 from harvester.extract.grid_model import Grid
 from harvester.extract.headers import (
     collapse_headers,
@@ -87,11 +87,20 @@ def extract_grid(
     *,
     drop_hidden: bool = False,
     source: str = "<page>",
+    max_grid_slots: int = MAX_GRID_SLOTS,
 ) -> list[list[str]]:
-    """The span-expanded grid of the table ``select`` names: every slot's text, row by row."""
+    """The span-expanded grid of the table ``select`` names: every slot's text, row by row.
+
+    A grid that would pass ``max_grid_slots`` slots (columns × rows) is an ExtractError.
+    """
     with EXTRACTION_PAUSE:
-        located = locate_table(_as_page(page, source), select, index)
-        return build_grid(located.node, drop_hidden=drop_hidden).texts()
+        page = _as_page(page, source)
+        located = locate_table(page, select, index)
+        where = f"{page.source}: table ({select})"
+        grid = build_grid(
+            located.node, drop_hidden=drop_hidden, max_slots=max_grid_slots, where=where
+        )
+        return grid.texts()
 
 
 def extract_table(
@@ -100,20 +109,28 @@ def extract_table(
     *,
     base_url: str | None = None,
     source: str = "<page>",
+    max_grid_slots: int = MAX_GRID_SLOTS,
 ) -> ExtractedTable:
     """Read the table ``rule`` names on ``page`` into typed columns.
 
-    ``base_url`` resolves relative link targets kept by ``link_of`` columns.
+    ``base_url`` resolves relative link targets kept by ``link_of`` columns. A grid that
+    would pass ``max_grid_slots`` slots (columns × rows) is an ExtractError, raised before
+    the slots are made.
     """
     with EXTRACTION_PAUSE:
-        return _extract_table(_as_page(page, source), rule or TableRule(), base_url)
+        page = _as_page(page, source)
+        return _extract_table(page, rule or TableRule(), base_url, max_grid_slots)
 
 
-def _extract_table(page: Page, rule: TableRule, base_url: str | None) -> ExtractedTable:
+def _extract_table(
+    page: Page, rule: TableRule, base_url: str | None, max_grid_slots: int = MAX_GRID_SLOTS
+) -> ExtractedTable:
     """:func:`extract_table` without the collector pause (the benchmark times both)."""
     located = locate_table(page, rule.select, rule.index)
     where = f"{page.source}: table {rule.name!r} ({rule.select})"
-    grid = build_grid(located.node, drop_hidden=rule.hidden == "drop")
+    grid = build_grid(
+        located.node, drop_hidden=rule.hidden == "drop", max_slots=max_grid_slots, where=where
+    )
     header_indices = header_row_indices(grid, rule.header_rows)
     names = deduplicate(collapse_headers(grid, header_indices, rule.header_separator))
     names = rename_columns(names, rule.rename, where)

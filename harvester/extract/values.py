@@ -107,7 +107,8 @@ def _infer(cells: list[str], decimal_mark: str) -> tuple[ColumnType, list[Any]]:
             values, _ = PARSERS[kind](cells, ctx)
             if values is not None:
                 # Integers past 64 bits are identifiers; a float would silently round them.
-                if kind == "integer" and not fits_int64(values):
+                # Durations are stored as int64 seconds, so one past 64 bits is no duration.
+                if kind in _INT64_KINDS and not fits_int64(values):
                     break
                 return kind, values
     return "text", cells
@@ -193,7 +194,13 @@ class _CellRows:
 _HINT = 'declare type = "text" or add the text to nulls'
 _BOOLEAN_HINT = "add it to true_values, " + _HINT
 _DATE_HINT = "add its format to formats, " + _HINT
-_PAST_64_BITS_HINT = 'it is past 64 bits; declare type = "decimal" or "text"'
+# Columns stored as int64: integers, and durations (seconds; float seconds are checked alike
+# so that no column silently rounds a value that would not fit).
+_INT64_KINDS = frozenset({"integer", "duration"})
+_PAST_64_BITS_HINTS = {
+    "integer": 'it is past 64 bits; declare type = "decimal" or "text"',
+    "duration": 'its seconds are past 64 bits; declare type = "text" or add the text to nulls',
+}
 
 
 def _boolean_column(
@@ -234,9 +241,9 @@ def _parse_declared(
 ) -> tuple[list[Any] | None, int, str]:
     """The cells parsed as the declared ``kind``; or None, the first bad cell and a hint."""
     parsed, bad = PARSERS[kind](cells, ParseContext(decimal_mark, infer=False, formats=formats))
-    if parsed is not None and kind == "integer" and not fits_int64(parsed):
+    if parsed is not None and kind in _INT64_KINDS and not fits_int64(parsed):
         bad = next(i for i, value in enumerate(parsed) if not fits_int64([value]))
-        return None, bad, _PAST_64_BITS_HINT
+        return None, bad, _PAST_64_BITS_HINTS[kind]
     if parsed is None:
         return None, bad, _DATE_HINT if kind == "date" else _HINT
     return parsed, bad, ""

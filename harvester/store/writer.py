@@ -21,6 +21,7 @@ from __future__ import annotations
 import hashlib
 import json
 import os
+from collections import Counter
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from datetime import date, datetime
@@ -288,7 +289,7 @@ def _arrange(data: pa.Table, partition: Partition, key: Sequence[str], where: st
     if not isinstance(data, pa.Table):
         raise StoreError(f"{where}: data is a {type(data).__name__}, not a pyarrow.Table")
     names = data.column_names
-    repeated = sorted({n for n in names if names.count(n) > 1})
+    repeated = sorted(n for n, count in Counter(names).items() if count > 1)
     if repeated:
         raise StoreError(f"{where}: column(s) {', '.join(repeated)} appear more than once")
     unknown = [n for n in names if n.startswith("_") and n not in PROVENANCE_COLUMNS]

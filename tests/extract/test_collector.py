@@ -10,6 +10,7 @@ from __future__ import annotations
 import gc
 import threading
 from collections.abc import Callable, Iterator
+from typing import Any
 
 import pytest
 from selectolax.lexbor import LexborNode
@@ -43,9 +44,9 @@ def seen_inside(monkeypatch: pytest.MonkeyPatch) -> list[bool]:
     """The collector's state each time an extraction reaches its grid step."""
     seen: list[bool] = []
 
-    def watched(table: LexborNode, *, drop_hidden: bool = False) -> Grid:
+    def watched(table: LexborNode, *, drop_hidden: bool = False, **budget: Any) -> Grid:
         seen.append(gc.isenabled())
-        return build_grid(table, drop_hidden=drop_hidden)
+        return build_grid(table, drop_hidden=drop_hidden, **budget)
 
     monkeypatch.setattr(table_module, "build_grid", watched)
     return seen
@@ -142,11 +143,11 @@ def test_another_thread_finishing_first_does_not_switch_the_collector_on_under_t
     assert entered.wait(timeout=10)
     seen: list[bool] = []
 
-    def grid_step(table: LexborNode, *, drop_hidden: bool = False) -> Grid:
+    def grid_step(table: LexborNode, *, drop_hidden: bool = False, **budget: Any) -> Grid:
         release.set()  # the other extraction ends while this one is at its grid step
         other.join(timeout=10)
         seen.append(gc.isenabled())
-        return build_grid(table, drop_hidden=drop_hidden)
+        return build_grid(table, drop_hidden=drop_hidden, **budget)
 
     monkeypatch.setattr(table_module, "build_grid", grid_step)
     extract_table(PAGE)

@@ -384,21 +384,23 @@ def test_script_style_and_template_text_is_excluded() -> None:
     assert texts_of(html) == [["a b", "c d", "e f"]]
 
 
-def test_nested_table_is_separate_and_its_text_excluded() -> None:
+def test_nested_table_is_separate_but_its_text_counts() -> None:
     # HTML §13.2.6.4.9: a table inside a td stays nested. Its rows are not rows of the outer
-    # table (§4.9.12.1 only walks tr children of the table and its row groups).
+    # table (§4.9.12.1 only walks tr children of the table and its row groups), but its text
+    # is part of the outer cell's text content (DOM textContent): "o1 " + "i1" + "i2" + " o2".
     html = data_file("nested_tables.html")
     outer = grid_of(html, "#outer")
-    assert outer.texts() == [["o1 o2", "c"]]
+    assert outer.texts() == [["o1 i1i2 o2", "c"]]
     assert outer.height == 1
     inner = grid_of(html, "#inner")
     assert inner.texts() == [["i1", "i2"]]
 
 
-def test_cell_text_function_excludes_nested_tables() -> None:
+def test_cell_text_function_includes_nested_tables() -> None:
+    # DOM textContent: the nested table's Text descendants are part of the cell's text.
     node = LexborHTMLParser("<table><tr><td>x <table><tr><td>y</table> z</table>").css_first("td")
     assert node is not None
-    assert cell_text(node) == "x z"
+    assert cell_text(node) == "x y z"
 
 
 # --- hidden cells ------------------------------------------------------------------------------

@@ -173,3 +173,36 @@ def test_first_cells_are_the_first_four_non_empty() -> None:
 
 def test_describe_no_tables() -> None:
     assert describe_candidates([]) == "the page has no tables"
+
+
+# --- many tables ---------------------------------------------------------------------------
+
+MANY = "".join(f'<table class="t"><tr><td>{i}</td></tr></table>' for i in range(50_000))
+FIRST_20 = " | ".join(f"[{i}] table.t first cells '{i}' 1×1" for i in range(20))
+
+
+def test_no_match_on_a_page_of_50000_tables_lists_20_and_counts_the_rest() -> None:
+    page = Page(MANY, "many.html")
+    with pytest.raises(TableNotFoundError) as raised:
+        locate_table(page, "table#missing")
+    assert str(raised.value) == (
+        f"many.html: selector 'table#missing' matched no table; tables: {FIRST_20} | "
+        "… and 49,980 more — pick a selector from the tables listed"
+    )
+
+
+def test_several_matches_on_a_page_of_50000_tables_list_20() -> None:
+    page = Page(MANY, "many.html")
+    with pytest.raises(TableNotFoundError) as raised:
+        locate_table(page, "table.t")
+    message = str(raised.value)
+    assert message.startswith(
+        f"many.html: selector 'table.t' matched 50000 tables; tables: {FIRST_20} | "
+        "… and 49,980 more — "
+    )
+    assert len(message) < 2_000  # one readable line, not megabytes
+
+
+def test_a_listing_of_exactly_the_limit_has_no_more_part() -> None:
+    page = Page(MANY[: MANY.index('<table class="t"><tr><td>20<')], "twenty.html")
+    assert describe_candidates(page.all_tables()) == f"tables: {FIRST_20}"

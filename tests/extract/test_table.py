@@ -230,3 +230,87 @@ def test_bytes_that_are_not_utf8_fall_back_to_windows_1252() -> None:
     # 0x93/0x94 are curly quotes in windows-1252 (Encoding Standard index) and invalid UTF-8.
     page = read_page(b"<table><tr><th>q</th></tr><tr><td>\x93x\x94</td></tr></table>")
     assert extract_table(page).table.column("q").to_pylist() == ["\u201cx\u201d"]
+
+
+# --- footnote markers --------------------------------------------------------------------------
+
+MARKED = """
+<table>
+<thead><tr><th>Player</th><th>Goals</th></tr></thead>
+<tbody>
+<tr><td>Lea Varn<sup>§</sup></td><td>12<sup>¶</sup></td></tr>
+<tr><td>Ola Berg <sup>‖</sup></td><td>7<sup>*</sup></td></tr>
+<tr><td>Kai Lund<sup>†‡</sup></td><td>1,204<sup>#</sup></td></tr>
+<tr><td>Mira Tavik</td><td>3</td></tr>
+</tbody>
+</table>
+"""
+
+
+def test_section_pilcrow_and_double_bar_are_default_markers_also_inside_sup() -> None:
+    # Common practice, no published source: §, ¶ and ‖ mark footnotes as *, †, ‡, + and # do,
+    # and a site often sets the marker as <sup>; a <sup> at the end of the cell adds its text
+    # to the end of the cell's text content, so its marker is split off like a plain one.
+    rule = TableRule(
+        columns=(
+            ColumnRule(name="player", markers_to="player_notes"),
+            ColumnRule(name="goals", markers_to="goal_notes"),
+        )
+    )
+    table = extract_table(MARKED, rule).table
+    assert table.column("player").to_pylist() == ["Lea Varn", "Ola Berg", "Kai Lund", "Mira Tavik"]
+    assert table.column("player_notes").to_pylist() == ["§", "‖", "†‡", None]
+    assert table.column("goals").type == pa.int64()  # every cell is a number once split
+    assert table.column("goals").to_pylist() == [12, 7, 1204, 3]
+    assert table.column("goal_notes").to_pylist() == ["¶", "*", "#", None]
+
+
+# --- durations past 64 bits ------------------------------------------------------------------
+
+HUGE_MINUTES = """
+<table>
+<thead><tr><th>Player</th><th>Time</th></tr></thead>
+<tbody>
+<tr><td>Lea Varn</td><td>12:05</td></tr>
+<tr><td>Ola Berg</td><td>99999999999999999999:23</td></tr>
+</tbody>
+</table>
+"""
+
+
+def test_duration_past_64_bits_makes_an_inferred_column_text() -> None:
+    # 99999999999999999999 minutes is 5,999,999,999,999,999,999,423 s, far past 2**63 - 1
+    # (9,223,372,036,854,775,807): no int64 duration, so the column stays text, as an
+    # over-long integer column does.
+    table = extract_table(HUGE_MINUTES).table
+    assert table.column("time").type == pa.string()
+    assert table.column("time").to_pylist() == ["12:05", "99999999999999999999:23"]
+
+
+@pytest.mark.parametrize(
+    "text", ["99999999999999999999:23", "2562047788015216:00:00", "99999999999999999999:23.5"]
+)
+def test_duration_past_64_bits_stays_text_in_every_form(text: str) -> None:
+    # h:mm:ss: 2,562,047,788,015,216 h is 9,223,372,036,854,777,600 s, just past 2**63 - 1;
+    # fractional seconds become float seconds, checked against the same bound.
+    html = HUGE_MINUTES.replace("99999999999999999999:23", text)
+    assert extract_table(html).table.column("time").to_pylist() == ["12:05", text]
+
+
+def test_declared_duration_past_64_bits_is_a_one_line_parse_error() -> None:
+    rule = TableRule(columns=(ColumnRule(name="time", type="duration"),))
+    with pytest.raises(ValueParseError) as raised:
+        extract_table(HUGE_MINUTES, rule)
+    assert str(raised.value) == (
+        "column 'time', row 2 of the table body (grid row 3): cannot read "
+        "'99999999999999999999:23' as declared type 'duration' — its seconds are past 64 bits; "
+        'declare type = "text" or add the text to nulls'
+    )
+
+
+def test_duration_just_inside_64_bits_is_still_a_duration() -> None:
+    # 2,562,047,788,015,215 h is 9,223,372,036,854,774,000 s, just below 2**63 - 1.
+    html = HUGE_MINUTES.replace("99999999999999999999:23", "2562047788015215:00:00")
+    column = extract_table(html).table.column("time")
+    assert column.type == pa.int64()
+    assert column.to_pylist() == [725, 9_223_372_036_854_774_000]

@@ -549,3 +549,19 @@ def test_duckdb_reads_an_escaped_null_marker_as_text_where_pyarrow_reads_null(
         .fetchall()
     )
     assert rows == [("__HIVE_DEFAULT_PARTITION__",)]
+
+
+def test_repeated_names_among_100000_columns_are_each_named_once(tmp_path: Path) -> None:
+    # 100,000 distinct names, then "b" written over two of them, "a" over two and "z" over
+    # three: the error names a, b and z once each, sorted (the check counts every name once).
+    names = [f"c{i}" for i in range(100_000)]
+    for at, name in ((10, "b"), (50_000, "b"), (5, "a"), (99_999, "a"), (1, "z"), (2, "z")):
+        names[at] = name
+    names[3] = "z"
+    column = pa.array([1])
+    data = pa.Table.from_arrays([column] * len(names), names=names)
+    with (
+        ArchiveWriter(str(tmp_path)) as writer,
+        pytest.raises(StoreError, match=re.escape("column(s) a, b, z appear more than once")),
+    ):
+        commit(writer, data)
