@@ -210,7 +210,7 @@ TABLE_READERS: dict[str, Reader] = {
     "drop_rows": _drop_rows,
     "drop_empty_rows": boolean,
     "hidden": choice(literal_options(TableRule, "hidden")),
-    "markers": text('"*†‡+#"'),
+    "markers": text('"*†‡+#§¶‖"'),
     "nulls": text_list('["", "—", "N/A"]'),
     "decimal_mark": choice(literal_options(TableRule, "decimal_mark")),
     "infer_types": boolean,
