@@ -565,3 +565,27 @@ def test_repeated_names_among_100000_columns_are_each_named_once(tmp_path: Path)
         pytest.raises(StoreError, match=re.escape("column(s) a, b, z appear more than once")),
     ):
         commit(writer, data)
+
+
+def test_a_lock_that_is_a_folder_is_one_line_naming_it_and_nothing_is_lost(tmp_path: Path) -> None:
+    from harvester.errors import ArchiveUnwritableError
+
+    (tmp_path / ".lock").mkdir()  # a careless hand, or another tool, left a folder there
+    (tmp_path / ".lock" / "keep.txt").write_text("mine")
+    with pytest.raises(ArchiveUnwritableError) as caught, ArchiveWriter(str(tmp_path)):
+        pass
+    assert "cannot take its lock" in str(caught.value) and ".lock" in str(caught.value)
+    assert caught.value.exit_code == 5 and "\n" not in str(caught.value)
+    assert (tmp_path / ".lock" / "keep.txt").read_text() == "mine"
+
+
+def test_an_archive_under_a_plain_file_is_one_line(tmp_path: Path) -> None:
+    from harvester.errors import ArchiveUnwritableError
+
+    (tmp_path / "file").write_text("x")
+    archive = str(tmp_path / "file" / "archive")
+    with (
+        pytest.raises(ArchiveUnwritableError, match="cannot take its lock"),
+        ArchiveWriter(archive),
+    ):
+        pass
