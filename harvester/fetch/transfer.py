@@ -77,6 +77,14 @@ async def get(
             url=url,
             hint="the site sends a broken compressed body; report it to the site",
         ) from None
+    except httpx.InvalidURL as exc:
+        # The request's own URL was checked before sending, so this is httpx reading a redirect's
+        # Location (even with redirects off) that is no URL it can hold: "javascript:alert(1)".
+        raise FetchError(
+            f"redirect to an invalid Location ({exc})",
+            url=url,
+            hint="the site sends a broken redirect; report it to the site",
+        ) from None
     except httpx.RemoteProtocolError as exc:
         if not _MALFORMED.search(str(exc)):
             raise  # a dropped connection: the caller retries it
