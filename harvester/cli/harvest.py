@@ -22,34 +22,40 @@ from harvester.errors import HarvesterError
 __all__ = ["harvest_command"]
 
 
+RecipeArgument = Annotated[Path, typer.Argument(metavar="RECIPE", help="A recipe file (TOML).")]
+AllOption = Annotated[
+    bool, typer.Option("--all", help="Every parameter value, not just the current one.")
+]
+OfflineOption = Annotated[
+    bool, typer.Option("--offline", help="Use only the cache; fetch nothing.")
+]
+RefreshOption = Annotated[bool, typer.Option("--refresh", help="Revalidate every cached page.")]
+MaxWaitOption = Annotated[
+    float | None,
+    typer.Option(
+        "--max-wait",
+        metavar="SECONDS",
+        min=0.001,
+        max=86_400,
+        help="Longest single wait (Crawl-delay, Retry-After, back-off); else the recipe's"
+        " [fetch] max_wait, 600 by default. A site asking for more is skipped for the run.",
+    ),
+]
+LinesFormatOption = Annotated[
+    TextFormat, typer.Option("--format", "-f", help="text or json (JSON lines).")
+]
+
+
 def harvest_command(
-    recipe: Annotated[Path, typer.Argument(metavar="RECIPE", help="A recipe file (TOML).")],
+    recipe: RecipeArgument,
     archive: ArchiveOption = DEFAULT_ARCHIVE,
     param_values: ParamOption = None,
-    every_value: Annotated[
-        bool, typer.Option("--all", help="Every parameter value, not just the current one.")
-    ] = False,
+    every_value: AllOption = False,
     contact: ContactOption = None,
-    offline: Annotated[
-        bool, typer.Option("--offline", help="Use only the cache; fetch nothing.")
-    ] = False,
-    refresh: Annotated[
-        bool, typer.Option("--refresh", help="Revalidate every cached page.")
-    ] = False,
-    max_wait: Annotated[
-        float | None,
-        typer.Option(
-            "--max-wait",
-            metavar="SECONDS",
-            min=0.001,
-            max=86_400,
-            help="Longest single wait (Crawl-delay, Retry-After, back-off); else the recipe's"
-            " [fetch] max_wait, 600 by default. A site asking for more is skipped for the run.",
-        ),
-    ] = None,
-    output_format: Annotated[
-        TextFormat, typer.Option("--format", "-f", help="text or json (JSON lines).")
-    ] = TextFormat.text,
+    offline: OfflineOption = False,
+    refresh: RefreshOption = False,
+    max_wait: MaxWaitOption = None,
+    output_format: LinesFormatOption = TextFormat.text,
 ) -> None:
     """Harvest a recipe's tables politely into the archive, one line per table.
 

@@ -20,12 +20,14 @@ from __future__ import annotations
 
 import json
 import re
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
+from datetime import date, datetime
 from typing import Any
 
 import pyarrow as pa
 
 from harvester.errors import StoreError
+from harvester.timestamps import rfc3339
 
 __all__ = [
     "COMMITTED_AT_KEY",
@@ -50,6 +52,7 @@ __all__ = [
     "check_table_name",
     "damaged",
     "data_columns",
+    "provenance_json",
     "read_provenance",
     "recorded_key",
 ]
@@ -155,3 +158,60 @@ def recorded_key(metadata: Mapping[bytes, bytes] | None, shown_path: str) -> tup
     if not isinstance(key, list) or not all(isinstance(name, str) for name in key):
         raise damaged(shown_path, f'{PROVENANCE_KEY} "key" is not a list of column names')
     return tuple(key)
+
+
+def _json_default(value: object) -> object:
+    if isinstance(value, datetime) and value.utcoffset() is not None:
+        return rfc3339(value)
+    if isinstance(value, datetime):
+        return value.isoformat()
+    if isinstance(value, date):
+        return value.isoformat()
+    if isinstance(value, set | frozenset):
+        return sorted(value, key=str)
+    raise TypeError(f"{type(value).__name__} is not JSON")
+
+
+def provenance_json(
+    given: Mapping[str, object],
+    table: pa.Table,
+    dataset: str,
+    name: str,
+    partition: Partition,
+    version: int,
+    committed_at: str,
+    key: Sequence[str],
+    where: str,
+) -> str:
+    """The ``harvester.provenance`` JSON a version's footer holds (``read_provenance`` reads it).
+
+    The caller's fields, the writer's own (which win on a clash), and defaults from the columns.
+    """
+    if "run_id" not in given:
+        raise StoreError(f"{where}: provenance has no run_id", hint="pass the harvest run's id")
+
+    def distinct(column: str) -> list[object]:
+        return [v for v in table.column(column).unique().to_pylist() if v is not None]
+
+    body: dict[str, object] = {
+        "recipe": next(iter(distinct("_recipe")), None),
+        "recipe_sha256": next(iter(distinct("_recipe_sha256")), None),
+        "harvester_version": next(iter(distinct("_harvester_version")), None),
+        "source_urls": distinct("_source_url"),
+        **given,
+        # The writer's own fields win over anything the caller passed under the same name.
+        "dataset": dataset,
+        "table": name,
+        "partition": {k: v for k, v in partition},
+        "version": version,
+        "committed_at": committed_at,
+        "key": list(key),
+        "rows": table.num_rows,
+    }
+    try:
+        return json.dumps(body, ensure_ascii=False, sort_keys=True, default=_json_default)
+    except (TypeError, ValueError) as err:
+        raise StoreError(
+            f"{where}: provenance cannot be written as JSON: {err}",
+            hint="pass provenance values that are text, numbers, lists, dicts or datetimes",
+        ) from None

@@ -19,12 +19,10 @@ version (and the row bounds) is checked against the drift policy before version 
 from __future__ import annotations
 
 import hashlib
-import json
 import os
 from collections import Counter
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from datetime import date, datetime
 from types import TracebackType
 from typing import Literal
 
@@ -44,6 +42,7 @@ from harvester.store.contract import (
     PartitionValue,
     damaged,
     data_columns,
+    provenance_json,
 )
 from harvester.store.drift import DriftReport, detect_drift
 from harvester.store.layout import (
@@ -55,7 +54,7 @@ from harvester.store.layout import (
     version_dir,
 )
 from harvester.store.lock import ArchiveLock
-from harvester.timestamps import now_rfc3339, rfc3339
+from harvester.timestamps import now_rfc3339
 
 __all__ = ["ArchiveWriter", "CommitResult", "CommitStatus", "DriftPolicy", "data_sha256"]
 
@@ -171,20 +170,10 @@ class ArchiveWriter:
             message = f"{where}: refused, {report.summary()}; {kept} (drift policy refuse)"
             return result("refused", latest, message, drift=shown)
         version = latest + 1
-        committed_at = now_rfc3339()
-        body = _provenance_json(
-            provenance, arranged, dataset, table, part, version, committed_at, key, where
+        meta = self._footer(provenance, arranged, dataset, table, part, version, key, where, sha)
+        path = self._publish_or_say_why(
+            folder, version, arranged.replace_schema_metadata(meta), latest
         )
-        meta = {DATA_SHA256_KEY: sha, COMMITTED_AT_KEY: committed_at, PROVENANCE_KEY: body}
-        try:
-            path = self._publish(
-                folder, version, arranged.replace_schema_metadata(meta), fresh=not latest
-            )
-        except OSError as exc:  # no space, no permission: nothing was published
-            raise ArchiveUnwritableError(
-                f"{folder}: cannot write version {version} ({_why(exc)}); nothing was published",
-                hint="free disk space or fix the folder's permissions, then run again",
-            ) from exc
         message = f"{where}: version {version} written, {arranged.num_rows} rows"
         if drifted and drift_policy == "warn":
             message += f"; {report.summary()} (drift policy warn)"
@@ -193,6 +182,35 @@ class ArchiveWriter:
             # never passed over in silence.
             message += f"; {'; '.join(report.row_problems)} (drift policy accept)"
         return result("new", version, message, path=path, drift=shown)
+
+    def _footer(
+        self,
+        provenance: Mapping[str, object],
+        arranged: pa.Table,
+        dataset: str,
+        table: str,
+        part: Partition,
+        version: int,
+        key: Sequence[str],
+        where: str,
+        sha: str,
+    ) -> dict[str, str]:
+        """The key-value metadata of a new version's file (the contract's footer keys)."""
+        committed_at = now_rfc3339()
+        body = provenance_json(
+            provenance, arranged, dataset, table, part, version, committed_at, key, where
+        )
+        return {DATA_SHA256_KEY: sha, COMMITTED_AT_KEY: committed_at, PROVENANCE_KEY: body}
+
+    def _publish_or_say_why(self, folder: str, version: int, table: pa.Table, latest: int) -> str:
+        """Publish the version, or stop the run: a write that fails here fails for every table."""
+        try:
+            return self._publish(folder, version, table, fresh=not latest)
+        except OSError as exc:  # no space, no permission: nothing was published
+            raise ArchiveUnwritableError(
+                f"{folder}: cannot write version {version} ({_why(exc)}); nothing was published",
+                hint="free disk space or fix the folder's permissions, then run again",
+            ) from exc
 
     def _check_can_commit(self, drift_policy: str) -> None:
         if not self._held:
@@ -326,57 +344,3 @@ def _arrange(data: pa.Table, partition: Partition, key: Sequence[str], where: st
             hint="name data columns of the table as its key",
         )
     return data.select([*columns, *PROVENANCE_COLUMNS])
-
-
-def _json_default(value: object) -> object:
-    if isinstance(value, datetime) and value.utcoffset() is not None:
-        return rfc3339(value)
-    if isinstance(value, datetime):
-        return value.isoformat()
-    if isinstance(value, date):
-        return value.isoformat()
-    if isinstance(value, set | frozenset):
-        return sorted(value, key=str)
-    raise TypeError(f"{type(value).__name__} is not JSON")
-
-
-def _provenance_json(
-    given: Mapping[str, object],
-    table: pa.Table,
-    dataset: str,
-    name: str,
-    partition: Partition,
-    version: int,
-    committed_at: str,
-    key: Sequence[str],
-    where: str,
-) -> str:
-    """The ``harvester.provenance`` JSON: the caller's fields, the writer's own, and defaults."""
-    if "run_id" not in given:
-        raise StoreError(f"{where}: provenance has no run_id", hint="pass the harvest run's id")
-
-    def distinct(column: str) -> list[object]:
-        return [v for v in table.column(column).unique().to_pylist() if v is not None]
-
-    body: dict[str, object] = {
-        "recipe": next(iter(distinct("_recipe")), None),
-        "recipe_sha256": next(iter(distinct("_recipe_sha256")), None),
-        "harvester_version": next(iter(distinct("_harvester_version")), None),
-        "source_urls": distinct("_source_url"),
-        **given,
-        # The writer's own fields win over anything the caller passed under the same name.
-        "dataset": dataset,
-        "table": name,
-        "partition": {k: v for k, v in partition},
-        "version": version,
-        "committed_at": committed_at,
-        "key": list(key),
-        "rows": table.num_rows,
-    }
-    try:
-        return json.dumps(body, ensure_ascii=False, sort_keys=True, default=_json_default)
-    except (TypeError, ValueError) as err:
-        raise StoreError(
-            f"{where}: provenance cannot be written as JSON: {err}",
-            hint="pass provenance values that are text, numbers, lists, dicts or datetimes",
-        ) from None
