@@ -142,7 +142,7 @@ class SharedPace:
 
     def _try_start(self, host: HostKey, interval: float, token: str) -> tuple[float, str]:
         """Under the lock: record our start and return (0, ""), or (seconds to wait, why)."""
-        with self._locked() as hosts:
+        with self._locked(host) as hosts:
             now = self._clock()
             record = hosts.get(_key(host)) or self._empty()
             pace = max(interval, float(record["interval"]))
@@ -177,7 +177,7 @@ class SharedPace:
         record["hold_until"] = max(record["hold_until"], self._clock() + max(0.0, seconds))
 
     def _update(self, host: HostKey, change: Callable[[Record, Any], None], value: Any) -> None:
-        with self._locked() as hosts:
+        with self._locked(host) as hosts:
             record = hosts.get(_key(host)) or self._empty()
             change(record, value)
             hosts[_key(host)] = record
@@ -186,8 +186,8 @@ class SharedPace:
     def _empty() -> Record:
         return {"started": None, "owner": "", "finished": None, "interval": 0.0, "hold_until": 0.0}
 
-    def _locked(self) -> _LockedState:
-        return _LockedState(self)
+    def _locked(self, host: HostKey) -> _LockedState:
+        return _LockedState(self, describe(host))
 
     # -- the file ------------------------------------------------------------------------
 
@@ -246,8 +246,8 @@ class SharedPace:
 class _LockedState:
     """``with``: the hosts' records under the lock, written back on a clean exit."""
 
-    def __init__(self, pace: SharedPace) -> None:
-        self._pace = pace
+    def __init__(self, pace: SharedPace, where: str) -> None:
+        self._pace, self._where = pace, where
         self._lock = pace.lock()
         self._hosts: dict[str, Record] = {}
 
@@ -263,16 +263,16 @@ class _LockedState:
                 raise
         except Timeout:
             raise FetchError(
-                f"could not take the shared host pace lock within {seconds_text(pace.max_wait)}"
-                f" ({self._lock.lock_file})",
-                url=str(pace.path),
+                f"could not take the lock on the shared host pace ({self._lock.lock_file})"
+                f" within {seconds_text(pace.max_wait)}",
+                url=self._where,
                 hint="another harvest on this machine holds it; try again when it is done,"
                 " or raise max_wait",
             ) from None
         except OSError as exc:
             raise FetchError(
                 f"cannot use the shared host pace folder {pace.folder}: {exc.strerror or exc}",
-                url=str(pace.path),
+                url=self._where,
                 hint=f"set {STATE_DIR_VARIABLE} to a folder you can write",
             ) from None
         return self._hosts
