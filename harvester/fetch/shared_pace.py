@@ -15,7 +15,8 @@ mid-request. A damaged file is moved aside and started afresh with one warning, 
 is: it only saves waiting, nothing in it is the user's data.
 
 The file: ``{"format": 1, "hosts": {"http://127.0.0.1:8650": {"started": null, "owner": "",
-"finished": 1767225600.5, "interval": 0.3, "hold_until": 0.0}}}``, times in Unix seconds.
+"finished": 1767225600.5, "by": "812-5f0c", "interval": 0.3, "hold_until": 0.0}}}``, times in
+Unix seconds; "owner" names the request in flight, "by" the fetcher that finished last.
 """
 
 from __future__ import annotations
@@ -51,6 +52,7 @@ _FIELDS: dict[str, tuple[type, ...]] = {
     "started": (float, int, type(None)),
     "owner": (str,),
     "finished": (float, int, type(None)),
+    "by": (str,),
     "interval": (float, int),
     "hold_until": (float, int),
 }
@@ -105,6 +107,9 @@ class SharedPace:
         self._clock = clock
         self._sleep = sleep
         self._announced: set[tuple[HostKey, str]] = set()
+        # Who we are in the file's "by": our own last finish is paced by our own pacer alone,
+        # which already knows the Crawl-delay the robots.txt request (paced at 1 s) could not.
+        self._name = f"{os.getpid()}-{secrets.token_hex(4)}"
 
     async def begin(self, host: HostKey, interval: float) -> str:
         """Wait for the host's turn on this machine and record our start; return its token.
@@ -145,7 +150,8 @@ class SharedPace:
         with self._locked(host) as hosts:
             now = self._clock()
             record = hosts.get(_key(host)) or self._empty()
-            pace = max(interval, float(record["interval"]))
+            ours = record["by"] == self._name
+            pace = interval if ours else max(interval, float(record["interval"]))
             # A time ahead of now means the wall clock stepped back: count it as now.
             finished = None if record["finished"] is None else min(record["finished"], now)
             if record["started"] is not None:
@@ -172,6 +178,7 @@ class SharedPace:
             record.update(started=None, owner="")
         # Else another process took over after our start went stale: its start stays.
         record["finished"] = max(record["finished"] or -math.inf, now)
+        record["by"] = self._name
 
     def _held(self, record: Record, seconds: float) -> None:
         record["hold_until"] = max(record["hold_until"], self._clock() + max(0.0, seconds))
@@ -184,7 +191,14 @@ class SharedPace:
 
     @staticmethod
     def _empty() -> Record:
-        return {"started": None, "owner": "", "finished": None, "interval": 0.0, "hold_until": 0.0}
+        return {
+            "started": None,
+            "owner": "",
+            "finished": None,
+            "by": "",
+            "interval": 0.0,
+            "hold_until": 0.0,
+        }
 
     def _locked(self, host: HostKey) -> _LockedState:
         return _LockedState(self, describe(host))

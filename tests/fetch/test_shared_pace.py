@@ -109,7 +109,7 @@ def test_a_start_older_than_the_request_timeout_counts_as_finished(
     # A process killed mid-request left its start; after the whole-request timeout (2 s) no
     # request of it can still be running. Were the start held in flight, the turn could not
     # come within the cap plus the timeout, and the fetch would fail.
-    killed = {"started": time.time() - 5, "owner": "4242-dead", "finished": None}
+    killed = {"started": time.time() - 5, "owner": "4242-dead", "finished": None, "by": "4242-dead"}
     write_state(private_state_dir, {key(demo_site): {**killed, "interval": 0.05, "hold_until": 0}})
     limits = FetchLimits(max_wait=0.5, total_timeout=2.0)
     with fetcher(tmp_path, limits=limits) as client:
@@ -124,7 +124,7 @@ def test_a_recent_start_is_a_request_in_flight_and_is_waited_for(
     # Another process started a request just now and has not finished it: ours starts only
     # once that start is stale (1 s, the whole-request timeout) plus the interval after it.
     started = time.time()
-    other = {"started": started, "owner": "4242-busy", "finished": started - 10}
+    other = {"started": started, "owner": "4242-busy", "finished": started - 10, "by": "4242-busy"}
     write_state(private_state_dir, {key(demo_site): {**other, "interval": 0.05, "hold_until": 0}})
     with fetcher(tmp_path, limits=FetchLimits(total_timeout=1.0)) as client:
         client.fetch(demo_site.url(PAGES[0]))
@@ -158,6 +158,7 @@ def test_a_finish_in_the_future_counts_as_now(private_state_dir: Path) -> None:
                 "started": None,
                 "owner": "",
                 "finished": now + 3600,
+                "by": "4242-before",
                 "interval": 0.0,
                 "hold_until": 0,
             }
