@@ -7,6 +7,8 @@ back-off with jitter), pauses a host that keeps failing, and keeps a private RFC
 The network layer is an httpx transport, so tests and replays can swap it; the paced sending,
 retries and robots.txt fetching are in ``exchange``. No single wait exceeds
 ``FetchLimits.max_wait``, and waits over five seconds are announced through ``on_wait``.
+The pace per host is shared by every harvest of the user on the machine (``shared_pace``):
+``state_dir``, else ``$HARVESTER_STATE_DIR``, else the user's state folder, holds it.
 """
 
 from __future__ import annotations
@@ -40,6 +42,7 @@ from harvester.fetch.limits import FetchLimits
 from harvester.fetch.pacing import DEFAULT_INTERVAL, HostPacer, describe, host_key
 from harvester.fetch.robots import RobotsTxt
 from harvester.fetch.robots_gate import RobotsGate
+from harvester.fetch.shared_pace import SharedPace
 from harvester.fetch.source import PageRequest
 from harvester.fetch.targets import redact, redirect_problem, url_problem
 from harvester.fetch.transfer import Answer, Transient, now
@@ -73,6 +76,7 @@ class Fetcher:
         robots_on_429: Literal["unreachable", "unavailable"] = "unreachable",
         origin: Origin = "live",
         on_wait: WaitAnnouncer = log_wait,
+        state_dir: str | Path | None = None,
     ) -> None:
         self.identity = identity
         self.origin = origin  # what a network answer's capture says it came from
@@ -99,8 +103,14 @@ class Fetcher:
             headers=identity.headers(),
             trust_env=False,  # no proxies from the environment: we talk to the site itself
         )
-        # When each host was last asked is kept across runs in the robots store (keys do not
-        # collide): a run started right after another still waits out the interval.
+        # The pace is kept per user, not per cache folder: harvests of other recipes, into
+        # other archives, started at once or right after this one, take turns per host.
+        self.shared_pace = SharedPace(
+            state_dir,
+            max_wait=self.limits.max_wait,
+            stale_after=self.limits.total_timeout,
+            on_wait=on_wait,
+        )
         self._sender = PacedSender(
             self._client,
             self.pacer,
@@ -108,7 +118,7 @@ class Fetcher:
             retries=retries,
             backoff_initial=backoff_initial,
             backoff_max=backoff_max,
-            pace_store=self._robots_store,
+            shared=self.shared_pace,
         )
         self.robots = RobotsGate(
             self._sender.fetch_robots,

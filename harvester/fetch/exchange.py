@@ -1,6 +1,8 @@
-"""The fetcher's network half: paced GETs with retries, the pace kept across runs, robots.txt.
+"""The fetcher's network half: paced GETs with retries, the pace shared by processes, robots.txt.
 
-``PacedSender`` takes a host's one slot from the pacer for every request, turns 429/503/5xx and
+``PacedSender`` takes a host's one slot from the pacer for every request, then the host's turn
+on the whole machine from the shared pace (so other harvests, and later runs, keep the pace
+too; holds after a 429, 503 or failure are shared as well), turns 429/503/5xx and
 network errors into ``Transient`` failures worth retrying (pushing the host back first), and
 turns a wait the site asks for beyond ``FetchLimits.max_wait`` into a skipped host: each of its
 later requests fails at once with the same message. The fetcher (client.py) builds on it.
@@ -10,8 +12,6 @@ from __future__ import annotations
 
 import asyncio
 import math
-import time
-from typing import Any
 from urllib.parse import urljoin, urlsplit
 
 import httpx
@@ -24,6 +24,7 @@ from harvester.fetch.httpdate import parse_http_date, parse_retry_after
 from harvester.fetch.limits import FetchLimits
 from harvester.fetch.pacing import HostKey, HostPacer, describe, host_key
 from harvester.fetch.robots_gate import RobotsAnswer
+from harvester.fetch.shared_pace import SharedPace
 from harvester.fetch.targets import redact, redirect_problem
 from harvester.fetch.transfer import Answer, Transient, get
 from harvester.fetch.waits import cap_hint, seconds_text
@@ -45,13 +46,14 @@ class PacedSender:
         retries: int,
         backoff_initial: float,
         backoff_max: float,
-        pace_store: Any | None,  # a diskcache.Cache keeping each host's last request
+        shared: SharedPace | None,
     ) -> None:
         self.client, self.pacer, self.limits, self.retries = client, pacer, limits, retries
         # Exponential back-off with full jitter: a random wait up to initial × 2^attempt.
         self._backoff = wait_random_exponential(multiplier=backoff_initial, max=backoff_max)
-        self._pace_store = pace_store
-        self._pace_loaded: set[HostKey] = set()
+        self._shared = shared
+        # Back-off holds set in tenacity's (synchronous) wait, shared at the next send.
+        self._holds_to_share: dict[HostKey, float] = {}
         self._skipped: dict[HostKey, tuple[str, str]] = {}
 
     def skip(self, host: HostKey, message: str, hint: str) -> None:
@@ -78,15 +80,20 @@ class PacedSender:
         if isinstance(failure, Transient) and failure.retry_after is None:
             # The pacer holds the host, so the wait is announced and capped like any other.
             seconds = min(float(self._backoff(state)), self.limits.max_wait)
-            self.pacer.hold(host_key(failure.url), seconds, f"back-off after {failure.reason}")
+            host = host_key(failure.url)
+            self.pacer.hold(host, seconds, f"back-off after {failure.reason}")
+            self._holds_to_share[host] = max(seconds, self._holds_to_share.get(host, 0.0))
         return 0.0
 
     async def send(self, url: str, headers: dict[str, str], *, check_type: bool) -> Answer:
         """One paced GET with the hard limits; 429/503/5xx and network errors are transient."""
         self.check_skipped(url)
         host = host_key(url)
-        self._resume_pace(host)
+        held = self._holds_to_share.pop(host, None)
+        if held is not None and self._shared is not None:
+            await self._shared.hold(host, held)  # a little late, but before the held start
         async with self.pacer.slot(host):
+            turn = await self._shared.begin(host, self.pacer.interval(host)) if self._shared else ""
             try:
                 async with asyncio.timeout(self.limits.total_timeout):
                     answer = await get(
@@ -97,11 +104,14 @@ class PacedSender:
             except httpx.TransportError as exc:
                 raise Transient(url, f"network error: {exc}") from exc
             finally:
-                self._remember_pace(host)
+                if self._shared is not None:
+                    await self._shared.finish(host, turn)
         if answer.status in (429, 503):
             retry_after = self._retry_after(url, answer)
             why = f" after HTTP {answer.status}"
-            self.pacer.back_off(host, retry_after, cap=self.limits.max_wait, why=why)
+            waited = self.pacer.back_off(host, retry_after, cap=self.limits.max_wait, why=why)
+            if self._shared is not None:
+                await self._shared.hold(host, waited)
             reason = f"HTTP {answer.status} from {describe(host)}"
             raise Transient(url, reason, retry_after, answer.status)
         if answer.status >= 500:
@@ -132,21 +142,6 @@ class PacedSender:
         )
         self.skip(host, message, cap_hint(seconds))
         raise FetchLimitError(message, url=url, hint=cap_hint(seconds))
-
-    def _resume_pace(self, host: HostKey) -> None:
-        """Before a run's first request to a host, wait out the pace the last run left."""
-        if host in self._pace_loaded or self._pace_store is None:
-            return
-        self._pace_loaded.add(host)
-        last = self._pace_store.get(("pace", host))
-        if last is not None:
-            finished_at, interval = last
-            left = min(finished_at + interval - time.time(), self.limits.max_wait)
-            self.pacer.hold(host, left, "the pace the previous run left")
-
-    def _remember_pace(self, host: HostKey) -> None:
-        if self._pace_store is not None:
-            self._pace_store.set(("pace", host), (time.time(), self.pacer.interval(host)))
 
     async def fetch_robots(self, location: str) -> RobotsAnswer:
         """GET robots.txt, following up to five redirects (RFC 9309 §2.3.1.2)."""
