@@ -4,18 +4,21 @@
 ``TEST_CRAWL_DELAY`` seconds, so tests stay quick. ``demo_site_factory(**options)`` starts servers
 with any ``DemoServer`` options (the crawl delay again defaults to ``TEST_CRAWL_DELAY``). Every
 server is stopped after the test, and a server-side exception fails the test at teardown.
+Every test also gets its own shared-pace state folder (``private_state_dir``).
 """
 
 from __future__ import annotations
 
 import os
 from collections.abc import Callable, Iterator
+from pathlib import Path
 from typing import Any
 
 import pytest
 from hypothesis import settings
 
 from harvester.demo.server import DemoServer
+from harvester.fetch.shared_pace import STATE_DIR_VARIABLE
 
 __all__ = ["TEST_CRAWL_DELAY", "demo_site", "demo_site_factory"]
 
@@ -26,6 +29,28 @@ TEST_CRAWL_DELAY = 0.05
 settings.register_profile("ci", derandomize=True, database=None)
 if os.environ.get("CI"):
     settings.load_profile("ci")
+
+
+@pytest.fixture(scope="session", autouse=True)
+def session_state_dir(tmp_path_factory: pytest.TempPathFactory) -> Iterator[Path]:
+    """The shared-pace folder for module- and session-scoped fixtures (they start first)."""
+    folder = tmp_path_factory.mktemp("session-state")
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setenv(STATE_DIR_VARIABLE, str(folder))
+        yield folder
+
+
+@pytest.fixture(autouse=True)
+def private_state_dir(
+    tmp_path_factory: pytest.TempPathFactory, monkeypatch: pytest.MonkeyPatch
+) -> Path:
+    """Every test keeps the shared host pace in a fresh folder of its own, never the user's.
+
+    Set in the environment, so harvests the tests start in child processes use it too.
+    """
+    folder = tmp_path_factory.mktemp("state")
+    monkeypatch.setenv(STATE_DIR_VARIABLE, str(folder))
+    return folder
 
 
 def _stop(*sites: DemoServer) -> None:
