@@ -115,3 +115,15 @@ def test_an_agent_with_no_product_token_is_a_one_line_error(tmp_path: Path) -> N
     code, out, err = run(tmp_path, "--agent", "/1.0", "/index.html")
     assert code == 4 and out == ""
     assert err.startswith("error: ") and err.count("\n") == 1
+
+
+def test_json_from_a_saved_file_reports_its_crawl_delay(tmp_path: Path) -> None:
+    import json
+
+    saved = tmp_path / "robots.txt"
+    saved.write_text("User-agent: *\nCrawl-delay: 2.5\nDisallow: /private/\n", encoding="utf-8")
+    args = ["robots", "--robots-file", str(saved), "--agent", "harvester", "/a", "--format"]
+    result = RUNNER.invoke(app, [*args, "json"])
+    assert result.exit_code == 0, result.stderr
+    # Crawl-delay is not in RFC 9309 (common practice, no published source); the file names 2.5.
+    assert json.loads(result.stdout)["crawl_delay"] == {str(saved): 2.5}
