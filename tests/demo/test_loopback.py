@@ -20,6 +20,7 @@ import pytest
 from harvester.demo.loopback import LoopbackServer, Request
 from harvester.demo.replies import Reply, error_reply, filler
 from harvester.errors import HarvesterError
+from tests.demo.polite import Polite, new_client
 
 CRAWL_DELAY = 0.05
 MIB = 1 << 20
@@ -80,35 +81,6 @@ def host_factory() -> Iterator[Factory]:
 @pytest.fixture
 def host(host_factory: Factory) -> Host:
     return host_factory()
-
-
-def new_client(host: Host, **options: Any) -> httpx.Client:
-    # trust_env=False: no proxy from the environment may route loopback traffic elsewhere.
-    return httpx.Client(base_url=host.base_url, trust_env=False, **options)
-
-
-class Polite:
-    """An httpx client that starts each request the crawl delay plus a margin after the last.
-
-    "The last" is the latest start in the server's own log (same process, same monotonic
-    clock), so a slow connection set-up or a pause of the client cannot shrink the gap.
-    """
-
-    def __init__(self, host: Host, margin: float = 0.01) -> None:
-        self.host = host
-        self.client = new_client(host)
-        self.gap = host.crawl_delay + margin
-
-    def request(self, method: str, path: str, **options: Any) -> httpx.Response:
-        # Responses are logged before their last write, so a finished request is in the log.
-        if records := self.host.log:
-            wait = records[-1].started + self.gap - time.monotonic()
-            if wait > 0:
-                time.sleep(wait)
-        return self.client.request(method, path, **options)
-
-    def get(self, path: str, **options: Any) -> httpx.Response:
-        return self.request("GET", path, **options)
 
 
 @pytest.fixture

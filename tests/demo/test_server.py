@@ -30,6 +30,7 @@ from harvester.demo.league import League, build_league
 from harvester.demo.pages import render_page, site_paths
 from harvester.demo.server import DemoServer
 from harvester.errors import HarvesterError
+from tests.demo.polite import Polite, new_client
 
 Factory = Callable[..., DemoServer]
 MIB = 1 << 20
@@ -39,35 +40,6 @@ IMF_FIXDATE = re.compile(
     r"(Mon|Tue|Wed|Thu|Fri|Sat|Sun), \d{2} (Jan|Feb|Mar|Apr|May|Jun|Jul|Aug|Sep|Oct|Nov|Dec) "
     r"\d{4} \d{2}:\d{2}:\d{2} GMT"
 )
-
-
-def new_client(site: DemoServer, **options: Any) -> httpx.Client:
-    # trust_env=False: no proxy from the environment may route loopback traffic elsewhere.
-    return httpx.Client(base_url=site.base_url, trust_env=False, **options)
-
-
-class Polite:
-    """An httpx client that starts each request the crawl delay plus a margin after the last.
-
-    "The last" is the latest start in the server's own log (same process, same monotonic
-    clock), so a slow connection set-up or a pause of the client cannot shrink the gap.
-    """
-
-    def __init__(self, site: DemoServer, margin: float = 0.01) -> None:
-        self.site = site
-        self.client = new_client(site)
-        self.gap = site.crawl_delay + margin
-
-    def request(self, method: str, path: str, **options: Any) -> httpx.Response:
-        # Responses are logged before their last write, so a finished request is in the log.
-        if records := self.site.log:
-            wait = records[-1].started + self.gap - time.monotonic()
-            if wait > 0:
-                time.sleep(wait)
-        return self.client.request(method, path, **options)
-
-    def get(self, path: str, **options: Any) -> httpx.Response:
-        return self.request("GET", path, **options)
 
 
 @pytest.fixture
