@@ -53,6 +53,25 @@ __all__ = ["FetchMode", "Fetcher"]
 FetchMode = Literal["normal", "offline", "refresh"]
 
 
+def _http_client(
+    identity: Identity, limits: FetchLimits, transport: httpx.AsyncBaseTransport | None
+) -> httpx.AsyncClient:
+    """The one HTTP client of a fetcher: our identity, the limits' timeouts, no redirects."""
+    timeout = httpx.Timeout(
+        connect=limits.connect_timeout,
+        read=limits.read_timeout,
+        write=limits.read_timeout,
+        pool=limits.total_timeout,
+    )
+    return httpx.AsyncClient(
+        transport=transport,
+        timeout=timeout,
+        follow_redirects=False,  # followed by hand: every hop is checked, robots-checked, paced
+        headers=identity.headers(),
+        trust_env=False,  # no proxies from the environment: we talk to the site itself
+    )
+
+
 class Fetcher:
     """Fetches pages politely; use ``async with Fetcher(...) as fetcher``.
 
@@ -90,19 +109,7 @@ class Fetcher:
         self._robots_store = None
         if cache_dir is not None:
             self._robots_store = open_store(Path(cache_dir) / "robots", "robots store")
-        timeout = httpx.Timeout(
-            connect=self.limits.connect_timeout,
-            read=self.limits.read_timeout,
-            write=self.limits.read_timeout,
-            pool=self.limits.total_timeout,
-        )
-        self._client = httpx.AsyncClient(
-            transport=transport,
-            timeout=timeout,
-            follow_redirects=False,
-            headers=identity.headers(),
-            trust_env=False,  # no proxies from the environment: we talk to the site itself
-        )
+        self._client = _http_client(identity, self.limits, transport)
         # The pace is kept per user, not per cache folder: harvests of other recipes, into
         # other archives, started at once or right after this one, take turns per host.
         self.shared_pace = SharedPace(

@@ -116,3 +116,21 @@ def test_an_archive_that_cannot_be_written_stops_the_run_with_one_line(tmp_path:
     assert "cannot take its lock" in str(caught.value) and "\n" not in str(caught.value)
     assert caught.value.exit_code == 5
     assert in_the_way.read_text() == "not a folder"  # nothing lost
+
+
+def test_a_damaged_latest_version_fails_its_table_alone(tmp_path: Path) -> None:
+    site = tmp_path / "site"
+    write_demo_site(site)
+    recipe = load_recipe(demo_recipe_dir() / "league-players.toml", {"site": "http://127.0.0.1:9"})
+    archive = tmp_path / "archive"
+    harvest(recipe, archive=str(archive), source=FolderSource(site))
+    latest = archive / "tables/league-players/players/season=2026/version=1/part-0.parquet"
+    latest.write_bytes(latest.read_bytes()[:100])  # cut short: no footer any more
+    report = harvest(recipe, archive=str(archive), source=FolderSource(site))
+    outcomes = {outcome.table: outcome for outcome in report.outcomes}
+    assert outcomes["advanced"].status == "unchanged"  # the other table of the page goes on
+    assert outcomes["players"].status == "failed"
+    assert "cannot read the latest version" in outcomes["players"].message
+    assert str(latest) in outcomes["players"].message
+    assert "move its version folder out of the archive" in outcomes["players"].message
+    assert len(latest.read_bytes()) == 100  # nothing was written over the damaged file
