@@ -1,7 +1,7 @@
 """Imports point downstream only: a check of the package's own source, read as syntax (AST).
 
-The stages of the flow (DEVELOPERS.md): recipe → fetch → extract → store → run → cli, with demo
-beside the run. fetch, extract and store never import each other, the recipe, the run or the
+The stages of the flow (DEVELOPERS.md): recipe → fetch → snapshots → extract → store → run → cli,
+with demo beside the run; snapshots knows captures (fetch) and nothing downstream. fetch, extract and store never import each other, the recipe, the run or the
 CLI; only the CLI imports the CLI. The shared top-level modules import no stage at all.
 """
 
@@ -23,10 +23,11 @@ ALLOWED: dict[str, set[str]] = {
     "extract": SHARED,
     "fetch": SHARED,
     "store": SHARED,
+    "snapshots": SHARED | {"fetch"},
     "recipe": SHARED | {"extract", "fetch", "store"},
-    "run": SHARED | {"recipe", "fetch", "extract", "store"},
+    "run": SHARED | {"recipe", "fetch", "snapshots", "extract", "store"},
     "demo": SHARED | {"recipe", "run", "store"},
-    "cli": SHARED | {"recipe", "fetch", "extract", "store", "run", "demo"},
+    "cli": SHARED | {"recipe", "fetch", "snapshots", "extract", "store", "run", "demo"},
 }
 
 
