@@ -1,8 +1,9 @@
 """Imports point downstream only: a check of the package's own source, read as syntax (AST).
 
 The stages of the flow (DEVELOPERS.md): recipe → fetch → snapshots → extract → store → run → cli,
-with demo beside the run; snapshots knows captures (fetch) and nothing downstream. fetch, extract and store never import each other, the recipe, the run or the
-CLI; only the CLI imports the CLI. The shared top-level modules import no stage at all.
+with demo beside the run; snapshots knows captures (fetch) and nothing downstream. fetch,
+extract and store never import each other, the recipe, the run or the CLI; only the CLI imports
+the CLI. The shared top-level modules import no stage at all.
 """
 
 from __future__ import annotations
