@@ -328,8 +328,7 @@ class Fetcher:
             rule = verdict.rule
             why = verdict.reason
             if rule is not None:
-                kind = "Allow" if rule.allow else "Disallow"
-                why = f"line {rule.line}, {kind}: {rule.pattern}"
+                why = f"line {rule.line}, {rule.directive}"
             raise RobotsDisallowedError(
                 f"robots.txt disallows it for {self.identity.token!r}: {why}",
                 url=url,

@@ -76,8 +76,13 @@ class RobotsRule:
     pattern: str
     line: int
 
+    @property
+    def directive(self) -> str:
+        """The rule as robots.txt writes it: ``Disallow: /private/``."""
+        return f"{'Allow' if self.allow else 'Disallow'}: {self.pattern}"
+
     def __str__(self) -> str:
-        return f"{'Allow' if self.allow else 'Disallow'}: {self.pattern} (line {self.line})"
+        return f"{self.directive} (line {self.line})"
 
 
 @dataclass(frozen=True, slots=True)

@@ -32,7 +32,7 @@ class UrlVerdict:
         rule = self.verdict.rule
         if rule is None:
             return self.verdict.reason
-        return f"line {rule.line}: {'Allow' if rule.allow else 'Disallow'}: {rule.pattern}"
+        return f"line {rule.line}: {rule.directive}"
 
     def line(self, *, explain: bool = False) -> str:
         """``allowed<TAB>URL`` or ``disallowed<TAB>URL``, with the reason as a third column."""
@@ -45,9 +45,7 @@ class UrlVerdict:
         return {
             "url": self.url,
             "allowed": self.verdict.allowed,
-            "rule": None
-            if rule is None
-            else f"{'Allow' if rule.allow else 'Disallow'}: {rule.pattern}",
+            "rule": None if rule is None else rule.directive,
             "line": None if rule is None else rule.line,
             "reason": self.verdict.reason,
         }
