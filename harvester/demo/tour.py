@@ -18,6 +18,7 @@ from harvester.errors import HarvesterError
 from harvester.recipe import load_recipe
 from harvester.run import RunReport, harvest
 from harvester.store.archive import Archive
+from harvester.store.contract import data_columns
 
 __all__ = [
     "DEMO_PORT",
@@ -104,7 +105,7 @@ def preview_archive(archive: str, rows: int = 5, season: int | None = None) -> l
             table = store.read(dataset, name)
             if season is not None and "season" in table.column_names:
                 table = table.filter(pc.equal(table.column("season"), season))
-            data = [n for n in table.column_names if not n.startswith("_")]
+            data = data_columns(table)
             shown = table.select(data).slice(0, rows).to_pylist()
             title = f"{dataset}/{name} — {table.num_rows} rows (latest versions), first {rows}"
             previews.append(
