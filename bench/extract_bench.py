@@ -159,16 +159,19 @@ def collections_during(action: Callable[[], object], runs: int) -> tuple[dict[in
     return dict(sorted(counts.items())), spent[1]
 
 
-_PEAK_SCRIPT = """
-import sys
-from harvester import TableRule, extract_table
-
+# proc(5): a field of /proc/self/status in kB (VmRSS, VmHWM), for the child scripts below.
+_STATUS_FUNCTION = """
 def status(field):
     with open("/proc/self/status") as f:
         for line in f:
             if line.startswith(field + ":"):
                 return int(line.split()[1])
+"""
 
+_PEAK_SCRIPT = """
+import sys
+from harvester import TableRule, extract_table
+""" + _STATUS_FUNCTION + """
 data = open(sys.argv[1], "rb").read()
 extract_table(data[:4096] + b"</table>", TableRule(select="table#players", header_rows=2))
 with open("/proc/self/clear_refs", "w") as f:
@@ -215,13 +218,7 @@ def hostile_pages() -> dict[str, tuple[str, str]]:
 _HOSTILE_SCRIPT = """
 import sys, time
 from harvester import HarvesterError, TableRule, extract_table
-
-def status(field):
-    with open("/proc/self/status") as f:
-        for line in f:
-            if line.startswith(field + ":"):
-                return int(line.split()[1])
-
+""" + _STATUS_FUNCTION + """
 data = open(sys.argv[1], "rb").read()
 start = time.perf_counter()
 try:
