@@ -18,6 +18,7 @@ from harvester.cli.common import (
     usage,
 )
 from harvester.errors import HarvesterError
+from harvester.fetch.limits import MAX_WAIT_LIMIT
 
 __all__ = ["harvest_command"]
 
@@ -36,7 +37,7 @@ MaxWaitOption = Annotated[
         "--max-wait",
         metavar="SECONDS",
         min=0.001,
-        max=86_400,
+        max=MAX_WAIT_LIMIT,
         help="Longest single wait (Crawl-delay, Retry-After, back-off); else the recipe's"
         " [fetch] max_wait, 600 by default. A site asking for more is skipped for the run.",
     ),

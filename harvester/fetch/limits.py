@@ -4,11 +4,13 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-__all__ = ["ROBOTS_PARSE_LIMIT", "FetchLimits"]
+__all__ = ["DEFAULT_MAX_WAIT", "MAX_WAIT_LIMIT", "ROBOTS_PARSE_LIMIT", "FetchLimits"]
 
 # RFC 9309 §2.5: the parsing limit MUST be at least 500 KiB, which is 512,000 octets; we read
 # exactly that much by default and no more.
 ROBOTS_PARSE_LIMIT = 512_000
+DEFAULT_MAX_WAIT = 600.0  # seconds: the longest single wait unless a recipe or --max-wait says
+MAX_WAIT_LIMIT = 86_400  # a day: no single wait of a run may be set longer (no source)
 
 
 @dataclass(frozen=True)
@@ -33,4 +35,4 @@ class FetchLimits:
     content_types: tuple[str, ...] = ("text/html", "application/xhtml+xml")
     # The longest single wait (Crawl-delay, Retry-After, back-off); a site asking for more is
     # skipped for the run rather than left to stall it silently.
-    max_wait: float = 600.0
+    max_wait: float = DEFAULT_MAX_WAIT

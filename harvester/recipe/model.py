@@ -17,6 +17,7 @@ from typing import Literal
 
 from harvester.errors import RecipeError
 from harvester.extract.rules import TableRule
+from harvester.fetch.limits import DEFAULT_MAX_WAIT
 from harvester.recipe.readers import suggest
 from harvester.recipe.templates import expand_template, template_names
 
@@ -54,7 +55,7 @@ class FetchSettings:
     past: PastMode = "live"
     capture_near: str | None = None  # template of the date a web-archive capture should be near
     immutable_before: int | None = None  # parameter values below this never change
-    max_wait: float = 600.0  # seconds: the longest single wait (Crawl-delay, Retry-After, back-off)
+    max_wait: float = DEFAULT_MAX_WAIT  # seconds: the longest single wait (any reason)
 
 
 @dataclass(frozen=True)

@@ -12,6 +12,7 @@ from typing import Any
 
 from harvester.extract.rules import COLUMN_TYPES, ColumnRule, RowDrop, TableRule
 from harvester.fetch.identity import CONTACT_HINT, check_contact
+from harvester.fetch.limits import MAX_WAIT_LIMIT
 from harvester.recipe.readers import (
     Reader,
     Where,
@@ -29,12 +30,9 @@ from harvester.recipe.readers import (
 )
 from harvester.store.contract import DATASET_NAME, TABLE_NAME
 
-MAX_WAIT_LIMIT = 86_400.0  # a day: no single wait of a run may be set longer (no source)
-
 __all__ = [
     "COLUMN_READERS",
     "FETCH_READERS",
-    "MAX_WAIT_LIMIT",
     "RECIPE_READERS",
     "STORE_READERS",
     "TABLE_READERS",
