@@ -16,7 +16,6 @@ import signal
 import uuid
 from collections.abc import Callable
 from contextlib import AsyncExitStack
-from dataclasses import dataclass
 from datetime import UTC, datetime
 
 import httpx
@@ -60,8 +59,8 @@ def harvest(
 
     Pages come from ``source``; without one, from the polite live fetcher that ``live_source``
     builds (``contact``, ``mode``, ``transport``, ``max_wait`` and ``on_wait`` are its
-    settings). ``on_outcome`` is called
-    with each table's outcome as soon as it is known (a long run shows progress line by line).
+    settings). ``on_outcome`` is called with each table's outcome as soon as it is known (a long
+    run shows progress line by line).
 
     The run report is written however the run ends. Ctrl-C (SIGINT) — and SIGTERM when
     ``stop_on_sigterm`` is set, which only the main thread can do — stops the run at the next
@@ -71,10 +70,21 @@ def harvest(
     """
     report = RunReport(uuid.uuid4().hex[:12], recipe.name, archive, datetime.now(UTC))
     run = _Run(recipe, archive, report, on_outcome)
-    settings = _LiveSettings(contact, mode, transport, max_wait, on_wait)
+
+    def live() -> Fetcher:
+        return live_source(
+            recipe,
+            archive,
+            contact=contact,
+            mode=mode,
+            transport=transport,
+            max_wait=max_wait,
+            on_wait=on_wait,
+        )
+
     try:
         with asyncio.Runner() as runner:
-            runner.run(run.go(source, settings, every_value, stop_on_sigterm))
+            runner.run(run.go(live if source is None else source, every_value, stop_on_sigterm))
     except KeyboardInterrupt:
         report.interrupted_by = "SIGINT"
     finally:
@@ -92,17 +102,6 @@ def harvest(
     return report
 
 
-@dataclass(frozen=True)
-class _LiveSettings:
-    """How to build the live fetcher when no source is given."""
-
-    contact: str | None
-    mode: FetchMode
-    transport: httpx.AsyncBaseTransport | None
-    max_wait: float | None
-    on_wait: WaitAnnouncer
-
-
 class _Run:
     """One harvest in progress: the plan walked page by page, outcomes reported as they come."""
 
@@ -113,20 +112,18 @@ class _Run:
         report: RunReport,
         on_outcome: Callable[[Outcome], None] | None,
     ) -> None:
-        self.recipe, self.archive, self.report, self.on_outcome = (
-            recipe,
-            archive,
-            report,
-            on_outcome,
-        )
+        self.recipe = recipe
+        self.archive = archive
+        self.report = report
+        self.on_outcome = on_outcome
 
     async def go(
         self,
-        source: PageSource | None,
-        live: _LiveSettings,
+        source: PageSource | Callable[[], Fetcher],
         every_value: bool,
         stop_on_sigterm: bool,
     ) -> None:
+        """Walk the plan; ``source`` is a page source, or how to build the live one."""
         pages = self.recipe.plan(every_value=every_value)
         self.report.pages_planned = len(pages)
         task = asyncio.current_task()
@@ -138,17 +135,8 @@ class _Run:
                 # The lock first: an archive that cannot be written stops the run before the
                 # fetcher makes its cache folder inside it.
                 writer = stack.enter_context(ArchiveWriter(self.archive))
-                if source is None:
-                    fetcher = live_source(
-                        self.recipe,
-                        self.archive,
-                        contact=live.contact,
-                        mode=live.mode,
-                        transport=live.transport,
-                        max_wait=live.max_wait,
-                        on_wait=live.on_wait,
-                    )
-                    source = await stack.enter_async_context(fetcher)
+                if not isinstance(source, PageSource):
+                    source = await stack.enter_async_context(source())
                 for page in pages:
                     outcomes = await _harvest_page(self.recipe, page, source, writer, self.report)
                     self.report.pages_done += 1
