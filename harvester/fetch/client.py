@@ -329,10 +329,12 @@ class Fetcher:
             why = verdict.reason
             if rule is not None:
                 why = f"line {rule.line}, {rule.directive}"
+            hint = "robots.txt is the site's wish; leave this page out of the recipe"
+            if rule is None and verdict.reason.startswith("robots.txt unreachable"):
+                # RFC 9309 §2.3.1.4: no answer, nothing fetched — a fault, not the site's wish.
+                hint = "the site did not answer for its robots.txt; check the address or try later"
             raise RobotsDisallowedError(
-                f"robots.txt disallows it for {self.identity.token!r}: {why}",
-                url=url,
-                hint="robots.txt is the site's wish; leave this page out of the recipe",
+                f"robots.txt disallows it for {self.identity.token!r}: {why}", url=url, hint=hint
             )
 
     async def _with_retries(

@@ -145,3 +145,14 @@ def test_a_long_wait_is_announced_on_stderr(demo_site_factory: Factory, tmp_path
     assert result.exit_code == 0, result.stderr
     notices = [line for line in result.stderr.splitlines() if line.startswith("waiting ")]
     assert len(notices) == 1 and site.base_url in notices[0]
+
+
+def test_a_dead_site_says_so_rather_than_blaming_the_recipe(tmp_path: Path) -> None:
+    # Port 9 on loopback: nothing listens. RFC 9309 §2.3.1.4: unreachable robots.txt → disallow.
+    args = ["harvest", str(RECIPES / "league-standings.toml"), "--archive", str(tmp_path)]
+    result = CliRunner().invoke(app, [*args, "--param", "site=http://127.0.0.1:9"])
+    assert result.exit_code == 1
+    line = result.stdout.splitlines()[0]
+    assert "robots.txt unreachable" in line
+    assert "did not answer for its robots.txt; check the address or try later" in line
+    assert "leave this page out of the recipe" not in line
