@@ -168,10 +168,13 @@ def status(field):
                 return int(line.split()[1])
 """
 
-_PEAK_SCRIPT = """
+_PEAK_SCRIPT = (
+    """
 import sys
 from harvester import TableRule, extract_table
-""" + _STATUS_FUNCTION + """
+"""
+    + _STATUS_FUNCTION
+    + """
 data = open(sys.argv[1], "rb").read()
 extract_table(data[:4096] + b"</table>", TableRule(select="table#players", header_rows=2))
 with open("/proc/self/clear_refs", "w") as f:
@@ -180,6 +183,7 @@ before = status("VmRSS")
 extract_table(data, TableRule(select="table#players", header_rows=2))
 print(before, status("VmHWM"))
 """
+)
 
 
 def peak_memory_kib(data: bytes) -> tuple[int, int]:
@@ -215,10 +219,13 @@ def hostile_pages() -> dict[str, tuple[str, str]]:
     }
 
 
-_HOSTILE_SCRIPT = """
+_HOSTILE_SCRIPT = (
+    """
 import sys, time
 from harvester import HarvesterError, TableRule, extract_table
-""" + _STATUS_FUNCTION + """
+"""
+    + _STATUS_FUNCTION
+    + """
 data = open(sys.argv[1], "rb").read()
 start = time.perf_counter()
 try:
@@ -229,6 +236,7 @@ except HarvesterError as error:
     outcome = f"error ({len(text):,} characters): {text[:150]}…"
 print(f"{time.perf_counter() - start:.2f} {status('VmHWM')} {outcome}")
 """
+)
 
 
 def report_hostile() -> None:
