@@ -5,8 +5,8 @@ a ``From`` header for an e-mail contact), never fetches what robots.txt disallow
 requests per host, retries 429/503 and network errors (honouring Retry-After, else exponential
 back-off with jitter), pauses a host that keeps failing, and keeps a private RFC 9111 cache.
 The network layer is an httpx transport, so tests and replays can swap it; the paced sending,
-retries and robots.txt fetching are in ``exchange``. No single wait exceeds
-``FetchLimits.max_wait``, and waits over five seconds are announced through ``on_wait``.
+retries and robots.txt fetching are in ``exchange``, which hands every answer to ``on_answer``.
+No single wait exceeds ``FetchLimits.max_wait``; waits over five seconds go to ``on_wait``.
 The pace per host is shared by every harvest of the user on the machine (``shared_pace``):
 ``state_dir``, else ``$HARVESTER_STATE_DIR``, else the user's state folder, holds it.
 """
@@ -15,7 +15,6 @@ from __future__ import annotations
 
 from pathlib import Path
 from typing import Literal
-from urllib.parse import urljoin, urlsplit
 
 import httpx
 
@@ -36,7 +35,7 @@ from harvester.fetch.cache import (
 from harvester.fetch.cache_entry import cache_directives
 from harvester.fetch.capture import Capture, Origin, header
 from harvester.fetch.disk_store import open_store
-from harvester.fetch.exchange import REDIRECTS, PacedSender
+from harvester.fetch.exchange import REDIRECTS, AnswerListener, PacedSender
 from harvester.fetch.identity import Identity
 from harvester.fetch.limits import FetchLimits
 from harvester.fetch.pacing import DEFAULT_INTERVAL, HostPacer, describe, host_key
@@ -44,7 +43,7 @@ from harvester.fetch.robots import RobotsTxt
 from harvester.fetch.robots_gate import RobotsGate
 from harvester.fetch.shared_pace import SharedPace
 from harvester.fetch.source import PageRequest
-from harvester.fetch.targets import redact, redirect_problem, url_problem
+from harvester.fetch.targets import check_target, redirect_target
 from harvester.fetch.transfer import Answer, Transient, now
 from harvester.fetch.waits import WaitAnnouncer, cap_hint, log_wait, seconds_text
 
@@ -96,6 +95,7 @@ class Fetcher:
         origin: Origin = "live",
         on_wait: WaitAnnouncer = log_wait,
         state_dir: str | Path | None = None,
+        on_answer: AnswerListener | None = None,
     ) -> None:
         self.identity = identity
         self.origin = origin  # what a network answer's capture says it came from
@@ -126,6 +126,7 @@ class Fetcher:
             backoff_initial=backoff_initial,
             backoff_max=backoff_max,
             shared=self.shared_pace,
+            on_answer=on_answer,  # every answer read in full, for the snapshot archive
         )
         self.robots = RobotsGate(
             self._sender.fetch_robots,
@@ -161,7 +162,7 @@ class Fetcher:
         ``immutable`` marks a page that never changes (a past season): once cached it is
         always fresh. Raises a FetchError subclass for anything that is not a usable page.
         """
-        self._check_target(url)
+        check_target(url, self.limits.schemes)
         request_headers = dict(self.identity.headers())
         lookup = (
             self.cache.lookup("GET", url, request_headers, now())
@@ -223,20 +224,6 @@ class Fetcher:
         return rules
 
     # -- steps -------------------------------------------------------------------------
-
-    def _check_target(self, url: str) -> None:
-        """Refuse a URL of another scheme, a malformed one, or one carrying credentials."""
-        scheme = urlsplit(url).scheme.lower()
-        if scheme not in self.limits.schemes:
-            allowed = " or ".join(f"{name}://" for name in self.limits.schemes)
-            raise FetchLimitError(
-                f"scheme {scheme or '(none)'!r} is not fetched",
-                url=redact(url),
-                hint=f"use a URL starting with {allowed}",
-            )
-        problem = url_problem(url)
-        if problem is not None:
-            raise FetchLimitError(problem, url=redact(url), hint="fix the URL")
 
     def _offline(self, url: str, lookup: CacheLookup) -> Capture:
         stored = lookup.response
@@ -359,7 +346,7 @@ class Fetcher:
             location = header(answer.headers, "location")
             if answer.status not in REDIRECTS or not location:
                 return answer, tuple(hops)
-            target = self._redirect_target(url, current, location.strip())
+            target = redirect_target(url, current, location.strip(), self.limits.schemes)
             if target in seen:
                 raise FetchLimitError(
                     f"redirect loop: {' → '.join([*hops, current, target])}",
@@ -374,27 +361,3 @@ class Fetcher:
             url=url,
             hint="the site redirects too often; check the URL",
         )
-
-    def _redirect_target(self, url: str, current: str, location: str) -> str:
-        """Where a redirect leads; refused (not retried) when it may not be followed."""
-        try:
-            target = urljoin(current, location)
-        except ValueError as exc:
-            raise FetchLimitError(
-                f"redirect to an invalid Location {location!r} ({exc})",
-                url=url,
-                hint="the site sends a broken redirect; report it to the site",
-            ) from None
-        scheme = urlsplit(target).scheme.lower()
-        problem = (
-            f"scheme {scheme!r} is not fetched"
-            if scheme not in self.limits.schemes
-            else redirect_problem(current, target)
-        )
-        if problem is not None:
-            raise FetchLimitError(
-                f"redirect to {redact(target)} refused: {problem}",
-                url=url,
-                hint="harvester does not follow such redirects; report it to the site",
-            )
-        return target

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import asyncio
 import math
+from collections.abc import Callable
 from urllib.parse import urljoin, urlsplit
 
 import httpx
@@ -29,9 +30,12 @@ from harvester.fetch.targets import redact, redirect_problem
 from harvester.fetch.transfer import Answer, Transient, get
 from harvester.fetch.waits import cap_hint, seconds_text
 
-__all__ = ["REDIRECTS", "PacedSender"]
+__all__ = ["REDIRECTS", "AnswerListener", "PacedSender"]
 
 REDIRECTS = frozenset({301, 302, 303, 307, 308})
+
+AnswerListener = Callable[[Answer], None]
+"""Told of every answer read in full, before the fetcher acts on it (the snapshot recorder)."""
 
 
 class PacedSender:
@@ -47,8 +51,10 @@ class PacedSender:
         backoff_initial: float,
         backoff_max: float,
         shared: SharedPace | None,
+        on_answer: AnswerListener | None = None,
     ) -> None:
         self.client, self.pacer, self.limits, self.retries = client, pacer, limits, retries
+        self.on_answer = on_answer
         # Exponential back-off with full jitter: a random wait up to initial × 2^attempt.
         self._backoff = wait_random_exponential(multiplier=backoff_initial, max=backoff_max)
         self._shared = shared
@@ -106,6 +112,8 @@ class PacedSender:
             finally:
                 if self._shared is not None:
                     await self._shared.finish(host, turn)
+        if self.on_answer is not None:
+            self.on_answer(answer)
         if answer.status in (429, 503):
             retry_after = self._retry_after(url, answer)
             why = f" after HTTP {answer.status}"

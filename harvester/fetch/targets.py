@@ -12,10 +12,21 @@ from __future__ import annotations
 import ipaddress
 import re
 import socket
+from collections.abc import Collection
 from typing import Literal
-from urllib.parse import urlsplit, urlunsplit
+from urllib.parse import urljoin, urlsplit, urlunsplit
 
-__all__ = ["AddressKind", "address_kind", "redact", "redirect_problem", "url_problem"]
+from harvester.errors import FetchLimitError
+
+__all__ = [
+    "AddressKind",
+    "address_kind",
+    "check_target",
+    "redact",
+    "redirect_problem",
+    "redirect_target",
+    "url_problem",
+]
 
 AddressKind = Literal["loopback", "link-local", "private", "public"]
 _NOT_PUBLIC: frozenset[AddressKind] = frozenset({"loopback", "link-local", "private"})
@@ -103,3 +114,43 @@ def redirect_problem(source: str, target: str) -> str | None:
     if came_from == to:
         return None  # a loopback site redirecting within loopback, a LAN host within the LAN
     return f"it leads from a {came_from} address to a {to} address"
+
+
+def check_target(url: str, schemes: Collection[str]) -> None:
+    """Refuse a URL of another scheme, a malformed one, or one carrying credentials."""
+    scheme = urlsplit(url).scheme.lower()
+    if scheme not in schemes:
+        allowed = " or ".join(f"{name}://" for name in schemes)
+        raise FetchLimitError(
+            f"scheme {scheme or '(none)'!r} is not fetched",
+            url=redact(url),
+            hint=f"use a URL starting with {allowed}",
+        )
+    problem = url_problem(url)
+    if problem is not None:
+        raise FetchLimitError(problem, url=redact(url), hint="fix the URL")
+
+
+def redirect_target(url: str, current: str, location: str, schemes: Collection[str]) -> str:
+    """Where a redirect of ``current`` (asked for ``url``) leads; refused when it may not be."""
+    try:
+        target = urljoin(current, location)
+    except ValueError as exc:
+        raise FetchLimitError(
+            f"redirect to an invalid Location {location!r} ({exc})",
+            url=url,
+            hint="the site sends a broken redirect; report it to the site",
+        ) from None
+    scheme = urlsplit(target).scheme.lower()
+    problem = (
+        f"scheme {scheme!r} is not fetched"
+        if scheme not in schemes
+        else redirect_problem(current, target)
+    )
+    if problem is not None:
+        raise FetchLimitError(
+            f"redirect to {redact(target)} refused: {problem}",
+            url=url,
+            hint="harvester does not follow such redirects; report it to the site",
+        )
+    return target

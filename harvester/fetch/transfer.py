@@ -39,7 +39,11 @@ class Transient(Exception):
 
 @dataclass(frozen=True)
 class Answer:
-    """A final HTTP answer: status, headers, body and when it was asked and received."""
+    """One HTTP answer: status, headers, body, when it was asked and received, and the request.
+
+    ``body`` is the entity body as read (after Content-Encoding); ``request_headers`` are the
+    header fields the request went out with (httpx's own, such as Host, included).
+    """
 
     url: str
     status: int
@@ -47,6 +51,7 @@ class Answer:
     body: bytes
     request_time: datetime
     response_time: datetime
+    request_headers: tuple[tuple[str, str], ...] = ()
 
 
 def now() -> datetime:
@@ -107,6 +112,7 @@ async def get(
         body=body,
         request_time=request_time,
         response_time=now(),
+        request_headers=tuple(response.request.headers.multi_items()),
     )
 
 

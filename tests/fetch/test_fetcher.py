@@ -7,6 +7,7 @@ import time
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
+from urllib.parse import urlsplit
 
 import pytest
 
@@ -23,6 +24,7 @@ from harvester.fetch.identity import Identity
 from harvester.fetch.limits import FetchLimits
 from harvester.fetch.pacing import HostPacer
 from harvester.fetch.sync import SyncFetcher
+from harvester.fetch.transfer import Answer
 from tests.fetch.misbehaving import ScriptedSite, html
 
 TEST_CRAWL_DELAY = 0.05  # tests/conftest.py starts demo servers with this Crawl-delay
@@ -351,3 +353,24 @@ def test_a_run_started_right_after_another_still_keeps_the_pace(
     assert [record.path for record in demo_site.log] == ["/robots.txt", PLAYERS, STANDINGS]
     assert demo_site.violations() == []
     assert min(start_gaps(demo_site)) >= TEST_CRAWL_DELAY
+
+
+def test_every_answer_reaches_the_listener_as_the_server_logged_it(
+    demo_site_factory: Factory, tmp_path: Path
+) -> None:
+    # The snapshot archive keeps every exchange: robots.txt, redirects, pages and 304s alike.
+    site = demo_site_factory(max_age=0)
+    heard: list[Answer] = []
+    with fetcher(cache_dir=tmp_path, on_answer=heard.append) as client:
+        client.fetch(site.url("/"))  # a redirect to /index.html
+        client.fetch(site.url(PLAYERS))
+        client.fetch(site.url(PLAYERS))  # stale at once (max-age=0): revalidated, 304
+    logged = [(record.bare_path, record.status) for record in site.log]
+    assert [(urlsplit(a.url).path, a.status) for a in heard] == logged
+    assert [status for _, status in logged] == [200, 302, 200, 200, 304]
+    for answer, record in zip(heard, site.log, strict=True):
+        sent = {name.lower(): value for name, value in answer.request_headers}
+        # The request headers as they went out, as the server received them.
+        assert sent["user-agent"] == record.headers["user-agent"]
+        assert sent.get("if-none-match") == record.headers.get("if-none-match")
+    assert heard[-1].body == b""  # RFC 9110 §15.4.5: a 304 has no content
