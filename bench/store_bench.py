@@ -1,7 +1,7 @@
 """Archive benchmark: our versioned writer and reader against bare pyarrow.parquet, same tables.
 
 Builds 100 partitions × 1,000 rows of an invented player table (12 typed data columns plus the
-archive's 12 provenance columns) and times, as the median of several repeats in this one run:
+archive's 13 provenance columns) and times, as the median of several repeats in this one run:
   write (a) bare: ``pyarrow.parquet.write_table`` of each table to ``season=<s>/part-0.parquet``;
         (b) ours: ``ArchiveWriter.commit`` of each table as version 1 of its partition (lock,
             drift check, metadata, staging file, fsync, rename, folder fsyncs);
@@ -78,6 +78,7 @@ def build_table(season: int, rows: int, seed: int) -> pa.Table:
         "_recipe_sha256": "a" * 64,
         "_harvester_version": "0.1.0.dev0",
         "_table_selector": "table#players",
+        "_warc_record_id": f"<urn:uuid:{seed:032x}>",
     }
     for name, kind in PROVENANCE_COLUMNS.items():
         if name in values:

@@ -222,6 +222,7 @@ def _row_source(recipe: Recipe, capture: Capture, selector: str) -> RowSource:
         recipe_sha256=recipe.sha256,
         table_selector=selector,
         memento_datetime=capture.memento_datetime,
+        warc_record_id=capture.record_id,
     )
 
 

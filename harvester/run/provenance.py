@@ -32,6 +32,7 @@ class RowSource:
     recipe_sha256: str
     table_selector: str
     memento_datetime: datetime | None = None
+    warc_record_id: str | None = None  # the snapshot archive's record of the body, if kept
 
 
 def with_provenance(data: pa.Table, source: RowSource, source_rows: list[int]) -> pa.Table:
@@ -53,6 +54,7 @@ def with_provenance(data: pa.Table, source: RowSource, source_rows: list[int]) -
         "_recipe_sha256": source.recipe_sha256,
         "_harvester_version": __version__,
         "_table_selector": source.table_selector,
+        "_warc_record_id": source.warc_record_id,
     }
     table = data
     for field in PROVENANCE_FIELDS:

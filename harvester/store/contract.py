@@ -92,6 +92,7 @@ PROVENANCE_FIELDS: tuple[pa.Field, ...] = (
     pa.field("_harvester_version", pa.string()),
     pa.field("_table_selector", pa.string()),
     pa.field("_source_row", pa.int32()),
+    pa.field("_warc_record_id", pa.string()),
 )
 PROVENANCE_COLUMNS: dict[str, pa.DataType] = {field.name: field.type for field in PROVENANCE_FIELDS}
 """The provenance columns every file carries after its data columns, by name, in order."""

@@ -320,7 +320,7 @@ def _arrange(data: pa.Table, partition: Partition, key: Sequence[str], where: st
     if missing:
         raise StoreError(
             f"{where}: data lacks provenance column(s) {', '.join(missing)}",
-            hint="the harvest run adds all 12 provenance columns before committing",
+            hint="the harvest run adds all 13 provenance columns before committing",
         )
     for name, wanted in PROVENANCE_COLUMNS.items():
         if data.schema.field(name).type != wanted:

@@ -42,12 +42,14 @@ def test_columns_are_appended_in_order_with_their_types() -> None:
         "_harvester_version",
         "_table_selector",
         "_source_row",
+        "_warc_record_id",
     ]
     assert table.schema.field("_captured_at").type == pa.timestamp("us", tz="UTC")
     # 23:00:00.123456 at UTC+1 is 22:00:00.123456 UTC.
     assert table.column("_captured_at")[0].as_py() == datetime(2026, 12, 1, 22, 0, 0, 123456, UTC)
     assert table.column("_memento_datetime").null_count == 2
     assert table.column("_source_row").to_pylist() == [3, 5]
+    assert table.column("_warc_record_id").null_count == 2  # no snapshot archive kept the body
     assert set(table.column("_harvester_version").to_pylist()) == {__version__}
 
 

@@ -31,7 +31,7 @@ UTC_US = pa.timestamp("us", tz="UTC")
 PROVENANCE = [
     "_source_url", "_final_url", "_captured_at", "_capture_origin", "_memento_datetime",
     "_http_status", "_body_sha256", "_recipe", "_recipe_sha256", "_harvester_version",
-    "_table_selector", "_source_row",
+    "_table_selector", "_source_row", "_warc_record_id",
 ]  # fmt: skip
 
 
@@ -72,6 +72,7 @@ def write_version(
         pa.array(["0.1.0.dev0"] * n),
         pa.array(["table#players"] * n),
         pa.array(range(n), pa.int32()),
+        pa.array(["<urn:uuid:00000000-0000-4000-8000-000000000001>"] * n),
     ]
     full = pa.Table.from_arrays([*body.columns, *values], names=[*body.column_names, *PROVENANCE])
     provenance = {

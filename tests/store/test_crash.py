@@ -74,9 +74,9 @@ def harvest(seq):
         "n": pa.array([run * 100_000 + seq * 10 + r for r in range(rows)], pa.int64()),
         "label": pa.array([f"r{run}-{seq}-{r}" for r in range(rows)], pa.string()),
     }
-    for name, kind in list(PROVENANCE_COLUMNS.items())[:-1]:  # all but _source_row
-        value = {"_captured_at": T, "_memento_datetime": None, "_http_status": 200}.get(name, "x")
-        cols[name] = pa.array([value] * rows, kind)
+    fixed = {"_captured_at": T, "_memento_datetime": None, "_http_status": 200, "_source_row": 0}
+    for name, kind in PROVENANCE_COLUMNS.items():
+        cols[name] = pa.array([fixed.get(name, "x")] * rows, kind)
     cols["_source_row"] = pa.array(range(rows), pa.int32())
     return pa.table(cols)
 

@@ -70,6 +70,7 @@ def write_version(
         "_harvester_version": pa.array(["0.1.0.dev0"] * rows),
         "_table_selector": pa.array(["table#players"] * rows),
         "_source_row": pa.array(range(rows), pa.int32()),
+        "_warc_record_id": pa.array(["<urn:uuid:00000000-0000-4000-8000-000000000000>"] * rows),
     }
     full = pa.Table.from_arrays(
         [*body.columns, *provenance.values()], names=[*body.column_names, *provenance]

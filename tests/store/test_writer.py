@@ -44,6 +44,7 @@ PROVENANCE_ORDER = [  # the archive contract's table, top to bottom
     "_harvester_version",
     "_table_selector",
     "_source_row",
+    "_warc_record_id",
 ]
 TS = pa.timestamp("us", tz="UTC")
 INT64 = pa.int64()
@@ -51,7 +52,7 @@ RFC3339_Z_US = re.compile(r"\d{4}-\d\d-\d\dT\d\d:\d\d:\d\d\.\d{6}Z")  # RFC 3339
 
 
 def provenance(rows: int, captured: datetime = T0, urls: tuple[str, ...] = (URL,)) -> pa.Table:
-    """The 12 provenance columns with the contract's types, ``rows`` rows."""
+    """The 13 provenance columns with the contract's types, ``rows`` rows."""
     return pa.table(
         {
             "_source_url": pa.array([urls[i % len(urls)] for i in range(rows)], pa.string()),
@@ -66,6 +67,7 @@ def provenance(rows: int, captured: datetime = T0, urls: tuple[str, ...] = (URL,
             "_harvester_version": pa.array(["0.1.0.dev0"] * rows, pa.string()),
             "_table_selector": pa.array(["table#standings"] * rows, pa.string()),
             "_source_row": pa.array(range(rows), pa.int32()),
+            "_warc_record_id": pa.array([f"<urn:uuid:{i:032x}>" for i in range(rows)]),
         }
     )
 
