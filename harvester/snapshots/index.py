@@ -13,7 +13,7 @@ import bisect
 import os
 from collections.abc import Iterable, Iterator
 from dataclasses import fields
-from datetime import UTC, datetime
+from datetime import UTC, datetime, timedelta
 from pathlib import Path
 from typing import Any
 
@@ -37,6 +37,7 @@ INDEX_SUFFIX = ".parquet"
 _FORMAT_KEY = b"harvester.snapshot_index"  # footer metadata: which layout a file follows
 _FORMAT_VERSION = b"1"
 _TIME = pa.timestamp("us", tz="UTC")
+_EPOCH = datetime(1970, 1, 1, tzinfo=UTC)
 _TYPES: dict[str, pa.DataType] = {
     "date": _TIME,
     "memento_datetime": _TIME,
@@ -87,6 +88,11 @@ def write_index_file(entries: Iterable[IndexEntry], path: Path) -> None:
 
 def read_index_file(path: Path) -> list[IndexEntry]:
     """The entries of one index file; StoreError naming the file when it is damaged."""
+    return _entries_of(_read_table(path))
+
+
+def _read_table(path: Path) -> pa.Table:
+    """One index file as a table of exactly INDEX_SCHEMA; StoreError when it is damaged."""
     try:
         table = pq.read_table(path)
     except (OSError, pa.ArrowException) as exc:
@@ -107,7 +113,7 @@ def read_index_file(path: Path) -> list[IndexEntry]:
             raise StoreError(
                 f"{path}: the index file has empty {column.name} values", hint=_REBUILD
             )
-    return _entries_of(table)
+    return table
 
 
 def _one_line(exc: Exception) -> str:
@@ -118,11 +124,15 @@ def _entries_of(table: pa.Table) -> list[IndexEntry]:
     """Rows as entries, converted column by column (much faster than row by row)."""
     columns: list[list[Any]] = []
     for name in _FIELDS:
-        values = table.column(name).to_pylist()
-        if name in _TYPES and _TYPES[name] == _TIME:
-            # pyarrow returns zoneinfo's UTC; harvester's datetimes carry datetime.UTC.
-            values = [None if v is None else v.replace(tzinfo=UTC) for v in values]
-        columns.append(values)
+        column = table.column(name)
+        if _TYPES.get(name) == _TIME:
+            # Microseconds since the epoch, made datetimes here: exact, carrying datetime.UTC
+            # (pyarrow would give zoneinfo's UTC), and twice as fast as pyarrow's conversion.
+            micros = column.cast(pa.int64()).to_pylist()
+            columns.append([None if v is None else _EPOCH + timedelta(microseconds=v)
+                            for v in micros])  # fmt: skip
+        else:
+            columns.append(column.to_pylist())
     return [IndexEntry(*row) for row in zip(*columns, strict=True)]
 
 
@@ -172,9 +182,12 @@ class SnapshotIndex:
         index = cls()
         if not folder.is_dir():
             return index
-        for path in sorted(folder.glob("*" + INDEX_SUFFIX)):
-            for entry in read_index_file(path):
-                index.add(entry)
+        tables = [_read_table(path) for path in sorted(folder.glob("*" + INDEX_SUFFIX))]
+        if tables:
+            # One conversion for all files, in date order (Arrow's sort is stable), so every
+            # entry lands at the end of its URL's list and the first of a payload stays first.
+            table = pa.concat_tables(tables).sort_by([("date", "ascending")])
+            index._extend_in_date_order(_entries_of(table))
         return index
 
     def __len__(self) -> int:
@@ -191,6 +204,25 @@ class SnapshotIndex:
         if self._all and _listing_order(entry) < _listing_order(self._all[-1]):
             self._sorted = False
         self._all.append(entry)
+
+    def _extend_in_date_order(self, entries: list[IndexEntry]) -> None:
+        """``add`` for many entries already sorted by date, without a bisect each."""
+        if self._all:  # pragma: no cover - load() calls this on an empty index only
+            for entry in entries:
+                self.add(entry)
+            return
+        by_url, by_record = self._by_url, self._by_record
+        by_sha256, by_digest = self._by_sha256, self._by_digest
+        for entry in entries:
+            by_url.setdefault(entry.url, []).append(entry)
+            by_record[entry.record_id] = entry
+            if entry.record_type == "response":
+                if entry.body_sha256:
+                    by_sha256.setdefault(entry.body_sha256, entry)
+                if entry.payload_digest:
+                    by_digest.setdefault(entry.payload_digest, entry)
+        self._all = list(entries)
+        self._sorted = False  # by date only: the listing order also breaks ties
 
     def entries(self) -> list[IndexEntry]:
         """Every entry, ordered by date (then URL and record id)."""
