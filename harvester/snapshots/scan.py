@@ -128,7 +128,9 @@ def _entry_of(member: Member, file_name: str) -> IndexEntry | None:
     else:
         payload_record_id, body_sha256 = _bracketed(warc.get_header("WARC-Refers-To")), ""
     return IndexEntry(
-        url=_target_uri(warc.get_header("WARC-Target-URI") or ""),
+        # warcio's loader already strips the <> 1.0-era writers put around the URI (common
+        # practice; tested in test_scan.py against a 1.0 file).
+        url=(warc.get_header("WARC-Target-URI") or "").strip(),
         date=date,
         record_type=kind,
         profile=profile,
@@ -144,14 +146,6 @@ def _entry_of(member: Member, file_name: str) -> IndexEntry | None:
         origin="web-archive" if memento is not None else "live",
         memento_datetime=parse_http_date(memento) if memento is not None else None,
     )
-
-
-def _target_uri(value: str) -> str:
-    """WARC-Target-URI without the ``<>`` 1.0-era writers put around it (common practice)."""
-    text = value.strip()
-    if text.startswith("<") and text.endswith(">"):
-        return text[1:-1].strip()
-    return text
 
 
 def _bracketed(value: str | None) -> str:
