@@ -30,11 +30,13 @@ def _help(*args: str) -> str:
 
 
 def cli_reference() -> str:
-    """The command reference as Markdown: the top-level help, then each command's."""
-    names = sorted(typer.main.get_command(app).commands)  # type: ignore[attr-defined]
+    """The command reference as Markdown: the top help, then every command's and subcommand's."""
+    commands = typer.main.get_command(app).commands  # type: ignore[attr-defined]
     sections = [_INTRO, "## harvester\n", f"```\n{_help()}```\n"]
-    for name in names:
+    for name in sorted(commands):
         sections += [f"## harvester {name}\n", f"```\n{_help(name)}```\n"]
+        for sub in sorted(getattr(commands[name], "commands", {})):  # a group's own commands
+            sections += [f"## harvester {name} {sub}\n", f"```\n{_help(name, sub)}```\n"]
     return "\n".join(sections)
 
 

@@ -6,6 +6,8 @@ touches the archive: the store writes a version only for a table that was read c
 
 Pages come from a ``PageSource`` (``harvester.fetch.source``); by default the polite live
 fetcher, with its HTTP cache inside the archive. The run never asks what kind of source it is.
+Every exchange is kept in the archive's snapshot archive (``ARCHIVE/snapshots``) and, when asked,
+in a cassette; each row's ``_warc_record_id`` names the record its page's body is in.
 """
 
 from __future__ import annotations
@@ -17,6 +19,7 @@ import uuid
 from collections.abc import Callable
 from contextlib import AsyncExitStack
 from datetime import UTC, datetime
+from pathlib import Path
 
 import httpx
 from pyarrow import fs as pafs
@@ -26,6 +29,7 @@ from harvester.errors import ArchiveUnwritableError, HarvesterError, RunInterrup
 from harvester.extract.table import extract_table, read_page
 from harvester.fetch.capture import Capture
 from harvester.fetch.client import Fetcher, FetchMode
+from harvester.fetch.exchange import AnswerListener
 from harvester.fetch.identity import Identity
 from harvester.fetch.limits import FetchLimits
 from harvester.fetch.source import PageRequest, PageSource
@@ -34,11 +38,13 @@ from harvester.recipe.model import PlannedPage, Recipe
 from harvester.recipe.templates import expand_template
 from harvester.run.provenance import RowSource, with_provenance
 from harvester.run.report import Outcome, RunReport, Status, write_report
+from harvester.snapshots.entry import SNAPSHOTS_DIR
+from harvester.snapshots.recorder import SnapshotRecorder
 from harvester.store.layout import join, open_root
 from harvester.store.writer import ArchiveWriter
 from harvester.timestamps import rfc3339
 
-__all__ = ["harvest", "live_source", "page_request"]
+__all__ = ["harvest", "live_source", "local_folder", "page_request"]
 
 
 def harvest(
@@ -54,13 +60,16 @@ def harvest(
     stop_on_sigterm: bool = False,
     max_wait: float | None = None,
     on_wait: WaitAnnouncer = log_wait,
+    record: Path | None = None,
 ) -> RunReport:
     """Run ``recipe`` for its current parameter values (or every value) into ``archive``.
 
     Pages come from ``source``; without one, from the polite live fetcher that ``live_source``
     builds (``contact``, ``mode``, ``transport``, ``max_wait`` and ``on_wait`` are its
     settings). ``on_outcome`` is called with each table's outcome as soon as it is known (a long
-    run shows progress line by line).
+    run shows progress line by line). ``record`` names a cassette: one WARC file that also gets
+    every exchange of the run; the live fetcher then reads no HTTP cache, so the cassette holds
+    each page's exchanges themselves (redirects included) and replays without the cache.
 
     The run report is written however the run ends. Ctrl-C (SIGINT) — and SIGTERM when
     ``stop_on_sigterm`` is set, which only the main thread can do — stops the run at the next
@@ -69,9 +78,16 @@ def harvest(
     ArchiveUnwritableError; every other failure is one table's ``failed`` outcome.
     """
     report = RunReport(uuid.uuid4().hex[:12], recipe.name, archive, datetime.now(UTC))
-    run = _Run(recipe, archive, report, on_outcome)
+    info = {
+        "recipe": recipe.name,
+        "recipe-sha256": recipe.sha256,
+        "run-id": report.run_id,
+        "operator": contact or recipe.contact or configured_contact() or "",
+        "robots": "obey",  # WARC 1.1 §6.2's suggested warcinfo field: robots.txt is honoured
+    }
+    run = _Run(recipe, archive, report, on_outcome, info, record)
 
-    def live() -> Fetcher:
+    def live(on_answer: AnswerListener) -> Fetcher:
         return live_source(
             recipe,
             archive,
@@ -80,6 +96,8 @@ def harvest(
             transport=transport,
             max_wait=max_wait,
             on_wait=on_wait,
+            on_answer=on_answer,
+            use_cache=record is None,
         )
 
     try:
@@ -111,15 +129,19 @@ class _Run:
         archive: str,
         report: RunReport,
         on_outcome: Callable[[Outcome], None] | None,
+        info: dict[str, str],
+        cassette: Path | None,
     ) -> None:
         self.recipe = recipe
         self.archive = archive
         self.report = report
         self.on_outcome = on_outcome
+        self.info = info
+        self.cassette = cassette
 
     async def go(
         self,
-        source: PageSource | Callable[[], Fetcher],
+        source: PageSource | Callable[[AnswerListener], Fetcher],
         every_value: bool,
         stop_on_sigterm: bool,
     ) -> None:
@@ -135,8 +157,10 @@ class _Run:
                 # The lock first: an archive that cannot be written stops the run before the
                 # fetcher makes its cache folder inside it.
                 writer = stack.enter_context(ArchiveWriter(self.archive))
+                recorder = stack.enter_context(self._recorder())
                 if not isinstance(source, PageSource):
-                    source = await stack.enter_async_context(source())
+                    source = await stack.enter_async_context(source(recorder.keep))
+                source = recorder.wrap(source)
                 for page in pages:
                     outcomes = await _harvest_page(self.recipe, page, source, writer, self.report)
                     self.report.pages_done += 1
@@ -148,6 +172,18 @@ class _Run:
         finally:
             if stop_on_sigterm:
                 loop.remove_signal_handler(signal.SIGTERM)
+
+    def _recorder(self) -> SnapshotRecorder:
+        snapshots = local_folder(self.archive, SNAPSHOTS_DIR)
+        try:
+            return SnapshotRecorder(
+                Path(snapshots) if snapshots else None, info=self.info, cassette=self.cassette
+            )
+        except OSError as exc:
+            raise ArchiveUnwritableError(
+                f"the snapshot archive cannot be opened: {exc}",
+                hint="check the archive folder's permissions and free space",
+            ) from None
 
     def _stop(self, task: asyncio.Task[None]) -> None:
         self.report.interrupted_by = "SIGTERM"
@@ -168,25 +204,29 @@ def live_source(
     transport: httpx.AsyncBaseTransport | None = None,
     max_wait: float | None = None,
     on_wait: WaitAnnouncer = log_wait,
+    on_answer: AnswerListener | None = None,
+    use_cache: bool = True,
 ) -> Fetcher:
     """The polite live fetcher for ``recipe``, caching inside a local ``archive``.
 
     The contact is ``contact``, else the recipe's, else the user's configured one; without any,
     FetchError (harvester does not fetch from live sites anonymously). The longest single wait
     is ``max_wait``, else the recipe's ``[fetch] max_wait``; waits over five seconds go to
-    ``on_wait`` (by default a warning on the ``harvester.fetch`` logger).
+    ``on_wait`` (by default a warning on the ``harvester.fetch`` logger). Every answer read in
+    full goes to ``on_answer`` (the snapshot recorder); ``use_cache=False`` reads no HTTP cache.
     """
     identity = Identity.from_contact(
         contact or recipe.contact or configured_contact(), where=str(recipe.path)
     )
     return Fetcher(
         identity,
-        cache_dir=_local_cache_dir(archive),
+        cache_dir=local_folder(archive, "cache") if use_cache else None,
         mode=mode,
         min_interval=recipe.fetch.delay or 0.0,  # no delay: the site's Crawl-delay governs
         transport=transport,
         limits=FetchLimits(max_wait=recipe.fetch.max_wait if max_wait is None else max_wait),
         on_wait=on_wait,
+        on_answer=on_answer,
     )
 
 
@@ -241,6 +281,8 @@ async def _harvest_page(
     try:
         capture = await source.capture(page_request(recipe, page))
         parsed = read_page(capture.body, capture.final_url, capture.charset)
+    except ArchiveUnwritableError:
+        raise  # the snapshot archive cannot keep what is fetched: every page would fail alike
     except HarvesterError as error:
         return [outcome(table, "failed", str(error)) for table in page.tables]
     except Exception as error:
@@ -299,9 +341,9 @@ def _footer_provenance(
     }
 
 
-def _local_cache_dir(archive: str) -> str | None:
-    """The HTTP cache folder inside a local archive root (diskcache needs a local folder)."""
+def local_folder(archive: str, name: str) -> str | None:
+    """A folder inside a local archive root (the HTTP cache, the snapshot archive), or None."""
     filesystem, root = open_root(archive)
     if not isinstance(filesystem, pafs.LocalFileSystem):
-        return None  # an object-store archive: no on-disk HTTP cache
-    return join(root, "cache")
+        return None  # an object-store archive: no on-disk HTTP cache, no snapshot archive
+    return join(root, name)

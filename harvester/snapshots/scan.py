@@ -252,17 +252,22 @@ def reindex(snapshots_dir: Path) -> ReindexReport:
 
 
 def index_missing(snapshots_dir: Path) -> ReindexReport:
-    """Index only the complete WARC files that have no index file yet (cheap when none).
+    """Salvage dead ``.open`` files, then index the complete WARC files without an index file.
 
-    The writer calls it at start, after salvaging: a crash between finishing a WARC file and
-    writing its index file leaves exactly this gap.
+    Cheap when there is nothing to do. Every recording run calls it at start: a crash leaves an
+    ``.open`` file, or (between finishing a WARC file and writing its index file) exactly
+    this gap.
     """
     warc_dir = snapshots_dir / WARC_DIR
+    damaged: list[tuple[str, str]] = []
+    salvaged, removed_open, held_open = _salvage_all(warc_dir, damaged)
     missing = {name for name in _complete_files(warc_dir)
                if not index_path(snapshots_dir, name).exists()}  # fmt: skip
     if not missing:
-        return ReindexReport()
-    damaged: list[tuple[str, str]] = []
+        return ReindexReport(
+            salvaged=salvaged, removed_open=removed_open, held_open=held_open,
+            damaged=tuple(damaged),
+        )  # fmt: skip
     scanned = _scan_all(warc_dir, missing, damaged)
     known = SnapshotIndex.load(snapshots_dir)
     for entries in scanned.values():
@@ -273,6 +278,9 @@ def index_missing(snapshots_dir: Path) -> ReindexReport:
     return ReindexReport(
         indexed=tuple(scanned),
         entries=sum(len(entries) for entries in scanned.values()),
+        salvaged=salvaged,
+        removed_open=removed_open,
+        held_open=held_open,
         damaged=tuple(damaged),
     )
 

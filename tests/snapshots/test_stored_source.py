@@ -19,6 +19,7 @@ import pytest
 from harvester.errors import FetchError, FetchLimitError, HttpStatusError
 from harvester.fetch.capture import Capture
 from harvester.fetch.source import PageRequest, PageSource
+from harvester.fetch.transfer import Answer
 from harvester.snapshots.index import SnapshotIndex
 from harvester.snapshots.members import iter_members
 from harvester.snapshots.scan import reindex, resolve, scan_warc
@@ -188,17 +189,17 @@ def test_the_archive_serves_what_our_writer_kept(tmp_path: Path) -> None:
     # End to end with harvester's own writer: write, reindex, serve (revisit included).
     warc_dir = tmp_path / "snapshots" / "warc"
     url = f"{SITE}/t.html"
-    first = Capture(url, url, 200, HTML, BODY, T0, "live")
-    again = replace(first, fetched_at=T0 + timedelta(days=1))
-    with WarcSnapshotWriter(warc_dir, info={}) as writer:
-        original = writer.write(first, [("Host", "127.0.0.1")])
-        revisit = writer.write(again, [("Host", "127.0.0.1")])
-    assert revisit.revisit
+    first = Answer(url, 200, HTML, BODY, T0, T0, (("Host", "127.0.0.1"),))
+    again = replace(first, request_time=T0 + timedelta(days=1))
+    with WarcSnapshotWriter(warc_dir, info={}, known=SnapshotIndex()) as writer:
+        original = writer.write(first)
+        revisit = writer.write(again)
+    assert revisit.record_type == "revisit"
     assert reindex(tmp_path / "snapshots").entries == 2
     source = StoredSource.from_archive(tmp_path / "snapshots")
     got = fetch(source, url)
     assert got.body == BODY and got.origin == "snapshot-archive"
-    assert got.record_id == original.record_id and got.fetched_at == again.fetched_at
+    assert got.record_id == original.record_id and got.fetched_at == again.request_time
     assert resolve(scan_warc(warc_dir / original.file), source.index)[1].body_sha256 == (
         hashlib.sha256(BODY).hexdigest()
     )  # fmt: skip
