@@ -17,6 +17,7 @@ from harvester.cli.extract import extract_command
 from harvester.cli.harvest import harvest_command, reparse_command
 from harvester.cli.recipes import check_command
 from harvester.cli.robots import robots_command
+from harvester.cli.snapshots import snapshots_app
 from harvester.cli.store import diff_command, versions_command
 
 __all__ = ["CAUTION", "app", "main"]
@@ -29,7 +30,8 @@ CAUTION = (
 
 EXIT_CODES = """Exit status: 0 success; 1 error, or (harvest) a table failed or was refused; 2 bad
 usage or invalid recipe; 3 table not found or not readable as asked; 4 fetching refused or failed
-(no contact, robots.txt, limits, HTTP); 5 archive error (locked, damaged, not writable); 130 or
+(no contact, robots.txt, limits, HTTP); 5 archive error (locked, damaged, not writable, no such
+snapshot record); 130 or
 143 stopped by Ctrl-C or SIGTERM at a safe point, the run report kept."""
 
 app = typer.Typer(
@@ -70,6 +72,7 @@ app.command(name="demo")(demo_command)
 app.command(name="robots")(robots_command)
 app.command(name="versions")(versions_command)
 app.command(name="diff")(diff_command)
+app.add_typer(snapshots_app, name="snapshots")
 
 
 def main() -> None:

@@ -61,6 +61,7 @@ def harvest(
     max_wait: float | None = None,
     on_wait: WaitAnnouncer = log_wait,
     record: Path | None = None,
+    snapshots: bool = True,
 ) -> RunReport:
     """Run ``recipe`` for its current parameter values (or every value) into ``archive``.
 
@@ -70,6 +71,7 @@ def harvest(
     run shows progress line by line). ``record`` names a cassette: one WARC file that also gets
     every exchange of the run; the live fetcher then reads no HTTP cache, so the cassette holds
     each page's exchanges themselves (redirects included) and replays without the cache.
+    ``snapshots=False`` keeps no snapshot archive (rows then have no ``_warc_record_id``).
 
     The run report is written however the run ends. Ctrl-C (SIGINT) — and SIGTERM when
     ``stop_on_sigterm`` is set, which only the main thread can do — stops the run at the next
@@ -85,7 +87,7 @@ def harvest(
         "operator": contact or recipe.contact or configured_contact() or "",
         "robots": "obey",  # WARC 1.1 §6.2's suggested warcinfo field: robots.txt is honoured
     }
-    run = _Run(recipe, archive, report, on_outcome, info, record)
+    run = _Run(recipe, archive, report, on_outcome, info, record, snapshots)
 
     def live(on_answer: AnswerListener) -> Fetcher:
         return live_source(
@@ -131,6 +133,7 @@ class _Run:
         on_outcome: Callable[[Outcome], None] | None,
         info: dict[str, str],
         cassette: Path | None,
+        snapshots: bool,
     ) -> None:
         self.recipe = recipe
         self.archive = archive
@@ -138,6 +141,7 @@ class _Run:
         self.on_outcome = on_outcome
         self.info = info
         self.cassette = cassette
+        self.snapshots = snapshots
 
     async def go(
         self,
@@ -174,7 +178,7 @@ class _Run:
                 loop.remove_signal_handler(signal.SIGTERM)
 
     def _recorder(self) -> SnapshotRecorder:
-        snapshots = local_folder(self.archive, SNAPSHOTS_DIR)
+        snapshots = local_folder(self.archive, SNAPSHOTS_DIR) if self.snapshots else None
         try:
             return SnapshotRecorder(
                 Path(snapshots) if snapshots else None, info=self.info, cassette=self.cassette

@@ -17,6 +17,7 @@ from harvester.recipe.model import Recipe
 from harvester.run.harvest import harvest, local_folder
 from harvester.run.report import Outcome, RunReport
 from harvester.snapshots.entry import SNAPSHOTS_DIR
+from harvester.snapshots.scan import index_missing
 from harvester.snapshots.stored_source import StoredSource
 
 __all__ = ["reparse"]
@@ -37,6 +38,7 @@ def reparse(
             f"{archive}: an archive on an object store keeps no snapshot archive to reparse",
             hint="reparse a local archive (the snapshot archive lives in ARCHIVE/snapshots)",
         )
+    index_missing(Path(folder))  # what a crashed harvest left becomes readable first
     return harvest(
         recipe,
         archive=archive,

@@ -7,9 +7,11 @@ response and revisit record has one entry; request and warcinfo records have non
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import asdict, dataclass
 from datetime import datetime
 from typing import Literal
+
+from harvester.timestamps import rfc3339
 
 __all__ = [
     "INDEX_DIR",
@@ -57,3 +59,11 @@ class IndexEntry:
     payload_record_id: str
     origin: str
     memento_datetime: datetime | None = None
+
+    def to_dict(self) -> dict[str, object]:
+        """The entry as JSON-ready values: the index's column names, times in RFC 3339 UTC."""
+        values = asdict(self)
+        values["date"] = rfc3339(self.date)
+        if self.memento_datetime is not None:
+            values["memento_datetime"] = rfc3339(self.memento_datetime)
+        return values

@@ -127,6 +127,23 @@ class StoredSource:
             record_id=answer.payload_entry.record_id,
         )
 
+    def stored_record(self, record_id: str) -> tuple[IndexEntry, RecordContent, bytes]:
+        """The record ``record_id``: its entry, what it holds, and its payload (a revisit's
+        original's). StoreError when the index does not know it; FetchError when it cannot be
+        read."""
+        entry = self.index.record(record_id.strip())
+        if entry is None:
+            raise StoreError(
+                f"no record {record_id} in {self.label}",
+                hint="list the records with `harvester snapshots`; copy the id with its <…>",
+            )
+        own = self._read(entry, entry.url)
+        if entry.record_type == "response":
+            return entry, own, own.payload
+        if not entry.payload_record_id:
+            return entry, own, b""  # a 304 whose original was never stored
+        return entry, own, self._read(self._original(entry, entry.url), entry.url).payload
+
     def _latest(self, current: str, asked: str) -> IndexEntry:
         entry = self.index.latest(current)
         if entry is None:
