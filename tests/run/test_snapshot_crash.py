@@ -64,7 +64,7 @@ start_file = warc.WarcSnapshotWriter._start_file
 
 def slow_start(self):
     start_file(self)
-    self._writer.out = Slow(self._out)
+    self._writer.out.out = Slow(self._out)  # under the gzip members, on the file itself
 
 
 warc.WarcSnapshotWriter._start_file = slow_start
@@ -122,9 +122,9 @@ def test_sigkill_while_writing_leaves_files_a_rebuild_makes_consistent(tmp_path:
     assert rows.num_rows > 0  # versions were committed between the kills
     pairs = zip(*(rows.column(n).to_pylist() for n in rows.column_names), strict=True)
     for record_id, body_sha256 in set(pairs):
-        entry = index.record(record_id)
-        assert entry is not None, record_id
-        payload = read_record(warc_dir / entry.file, entry.offset).payload
+        holder = index.record(record_id)
+        assert holder is not None, record_id
+        payload = read_record(warc_dir / holder.file, holder.offset).payload
         assert hashlib.sha256(payload).hexdigest() == body_sha256
 
 
