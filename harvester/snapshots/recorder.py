@@ -146,9 +146,14 @@ def _write(writer: WarcSnapshotWriter, answer: Answer, *, with_request: bool) ->
     try:
         return writer.write(answer, with_request=with_request)
     except OSError as exc:
+        what = (
+            f"the cassette {writer.folder / writer.fixed_name}"
+            if writer.fixed_name
+            else f"{writer.folder}: the snapshot archive"
+        )
         raise ArchiveUnwritableError(
-            f"{writer.folder}: the snapshot archive cannot be written ({exc}); nothing was"
-            " published for this page, and the run stops",
+            f"{what} cannot be written ({exc}); nothing was published for this page, and the"
+            " run stops",
             hint="free some space or fix the folder's permissions, then run again",
         ) from None
 
