@@ -10,6 +10,7 @@ from __future__ import annotations
 import hashlib
 import json
 import random
+import re
 import shutil
 import subprocess
 import sys
@@ -273,6 +274,9 @@ def test_snapshots_lists_shows_and_writes_the_payload(
         "response",
         demo_site.url("/seasons/2026/standings.html"),
     ]
+    # RFC 3339 §5.6 in UTC with microseconds, as every JSON output writes time.
+    assert re.fullmatch(r"\d{4}-\d\d-\d\dT\d\d:\d\d:\d\d\.\d{6}Z", captures[1]["date"])
+    assert captures[1]["memento_datetime"] is None and captures[1]["origin"] == "live"
     record_id = captures[1]["record_id"]
     body = tmp_path / "page.html"
     shown = CliRunner().invoke(
