@@ -5,10 +5,17 @@
 with any ``DemoServer`` options (the crawl delay again defaults to ``TEST_CRAWL_DELAY``). Every
 server is stopped after the test, and a server-side exception fails the test at teardown.
 Every test also gets its own shared-pace state folder (``private_state_dir``).
+
+Tests whose subject is extraction, storage or provenance rather than fetching replay committed
+cassettes instead (``tests/data/cassettes/``, re-recorded by ``python tools/record_cassettes.py``):
+``cassette(name)`` is the path of ``<name>.warc.gz`` there, ``cassette_site`` the site they were
+recorded from (load recipes with it: replay finds pages by URL), and ``no_network`` makes every
+socket connection attempt fail and be noted, to show a replay asks nothing of any host.
 """
 
 from __future__ import annotations
 
+import json
 import os
 from collections.abc import Callable, Iterator
 from pathlib import Path
@@ -19,8 +26,16 @@ from hypothesis import settings
 
 from harvester.demo.server import DemoServer
 from harvester.fetch.shared_pace import STATE_DIR_VARIABLE
+from tests.cassettes import CASSETTE_DIR, NetworkGuard
 
-__all__ = ["TEST_CRAWL_DELAY", "demo_site", "demo_site_factory"]
+__all__ = [
+    "TEST_CRAWL_DELAY",
+    "cassette",
+    "cassette_site",
+    "demo_site",
+    "demo_site_factory",
+    "no_network",
+]
 
 TEST_CRAWL_DELAY = 0.05
 
@@ -86,3 +101,32 @@ def demo_site_factory() -> Iterator[Callable[..., DemoServer]]:
         yield start
     finally:
         _stop(*started)
+
+
+@pytest.fixture(scope="session")
+def cassette() -> Callable[[str], Path]:
+    """``cassette("league-players-2026")``: the committed cassette of that name."""
+
+    def path(name: str) -> Path:
+        file = CASSETTE_DIR / f"{name}.warc.gz"
+        assert file.is_file(), f"no cassette {file}: run python tools/record_cassettes.py"
+        return file
+
+    return path
+
+
+@pytest.fixture(scope="session")
+def cassette_site() -> str:
+    """The site the committed cassettes were recorded from (``cassettes.json``)."""
+    manifest = json.loads((CASSETTE_DIR / "cassettes.json").read_text(encoding="utf-8"))
+    site: str = manifest["site"]
+    return site
+
+
+@pytest.fixture
+def no_network(monkeypatch: pytest.MonkeyPatch) -> NetworkGuard:
+    """Every ``socket.connect``/``connect_ex`` in this process fails and is noted in
+    ``attempts``: blocking and asyncio connections (httpx's too) all go through them."""
+    guard = NetworkGuard()
+    guard.install(monkeypatch)
+    return guard

@@ -1,6 +1,8 @@
 """``harvester harvest``: one line per table, exit status 1 on a failure, the cache modes.
 
-Against the real demo server on 127.0.0.1.
+Against the real demo server on 127.0.0.1; where the subject is what the command prints or
+writes, not how it fetches, the run replays a committed cassette (``--replay``,
+tests/data/cassettes/) instead.
 """
 
 from __future__ import annotations
@@ -17,13 +19,16 @@ import pytest
 from typer.testing import CliRunner
 
 from harvester.cli import app
+from harvester.demo.league import build_league
 from harvester.demo.server import DemoServer
 
 RECIPES = Path(__file__).resolve().parents[2] / "recipes"
 Factory = Callable[..., DemoServer]
 
 
-def test_harvest_command_prints_one_line_per_table(demo_site: DemoServer, tmp_path: Path) -> None:
+def test_harvest_command_prints_one_line_per_table(
+    cassette: Callable[[str], Path], cassette_site: str, tmp_path: Path
+) -> None:
     result = CliRunner().invoke(
         app,
         [
@@ -32,13 +37,16 @@ def test_harvest_command_prints_one_line_per_table(demo_site: DemoServer, tmp_pa
             "--archive",
             str(tmp_path),
             "--param",
-            f"site={demo_site.base_url}",
+            f"site={cassette_site}",
+            "--replay",
+            str(cassette("league-standings-2026")),
         ],
     )
     assert result.exit_code == 0, result.stderr
     first = result.stdout.splitlines()[0].split("\t")
     assert first[:3] == ["new", "league-standings/standings", "season=2026"]
-    assert first[3] == "10 rows, version 1"
+    clubs = len(build_league().season(2026).standings)
+    assert first[3] == f"{clubs} rows, version 1"
 
 
 def test_harvest_command_exits_non_zero_when_a_table_fails(
@@ -109,10 +117,12 @@ def test_a_signal_stops_the_run_at_a_safe_point_and_keeps_the_report(
 
 
 def test_versions_json_writes_partition_values_as_the_run_report_does(
-    demo_site: DemoServer, tmp_path: Path
+    cassette: Callable[[str], Path], cassette_site: str, tmp_path: Path
 ) -> None:
     args = ["harvest", str(RECIPES / "league-standings.toml"), "--archive", str(tmp_path)]
-    assert CliRunner().invoke(app, [*args, "--param", f"site={demo_site.base_url}"]).exit_code == 0
+    args += ["--param", f"site={cassette_site}"]
+    replayed = CliRunner().invoke(app, [*args, "--replay", str(cassette("league-standings-2026"))])
+    assert replayed.exit_code == 0, replayed.stderr
     (report,) = (tmp_path / "runs").glob("*.jsonl")
     outcome = json.loads(report.read_text().splitlines()[1])
     listed = CliRunner().invoke(

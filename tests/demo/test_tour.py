@@ -1,18 +1,25 @@
 """The demo end to end: demo recipes → loopback demo site → polite fetch → archive.
 
-Expected values come from the league's data model (harvester/demo/league.py), never from the
-code under test.
+``run_demo`` itself runs against the live loopback site. The tables it lands are checked on a
+replay of the demo recipes' committed cassettes (tests/data/cassettes/: the same pages, recorded
+from the same deterministic site; tests/run/test_cassettes.py holds them to what the site serves
+now), so those checks wait on no Crawl-delay. Expected values come from the league's data model
+(harvester/demo/league.py), never from the code under test.
 """
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from pathlib import Path
 
 import pyarrow.parquet as pq
 import pytest
 
 from harvester.demo.league import build_league
-from harvester.demo.tour import DemoRun, run_demo
+from harvester.demo.tour import DEMO_RECIPES, demo_recipe_dir, run_demo
+from harvester.recipe import load_recipe
+from harvester.run import harvest
+from harvester.snapshots.stored_source import StoredSource
 
 
 def latest(root: Path, dataset: str, table: str) -> list[dict[str, object]]:
@@ -23,13 +30,21 @@ def latest(root: Path, dataset: str, table: str) -> list[dict[str, object]]:
 
 
 @pytest.fixture(scope="module")
-def demo_archive(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, DemoRun]:
+def demo_archive(
+    tmp_path_factory: pytest.TempPathFactory, cassette: Callable[[str], Path], cassette_site: str
+) -> Path:
+    """The demo recipes' 2026 tables, replayed from their cassettes into one archive."""
     root = tmp_path_factory.mktemp("archive")
-    return root, run_demo(str(root), crawl_delay=0.02)
+    for file_name in DEMO_RECIPES:
+        name = file_name.removesuffix(".toml")
+        recipe = load_recipe(demo_recipe_dir() / file_name, {"site": cassette_site})
+        source = StoredSource.from_cassette(cassette(f"{name}-2026"))
+        assert not harvest(recipe, archive=str(root), source=source).failed
+    return root
 
 
-def test_every_demo_table_is_harvested(demo_archive: tuple[Path, DemoRun]) -> None:
-    _, done = demo_archive
+def test_every_demo_table_is_harvested(tmp_path: Path) -> None:
+    done = run_demo(str(tmp_path), crawl_delay=0.02)
     outcomes = [(o.dataset, o.table, o.status) for r in done.reports for o in r.outcomes]
     assert outcomes == [
         ("league-players", "players", "new"),
@@ -40,8 +55,8 @@ def test_every_demo_table_is_harvested(demo_archive: tuple[Path, DemoRun]) -> No
     assert done.site.startswith("http://127.0.0.1:")
 
 
-def test_players_match_the_league_model(demo_archive: tuple[Path, DemoRun]) -> None:
-    root, _ = demo_archive
+def test_players_match_the_league_model(demo_archive: Path) -> None:
+    root = demo_archive
     season = build_league().season(2026)
     by_id = {row["player_id"]: row for row in latest(root, "league-players", "players")}
     # One row per player: repeated header rows and the tfoot totals row are gone.
@@ -55,9 +70,9 @@ def test_players_match_the_league_model(demo_archive: tuple[Path, DemoRun]) -> N
 
 
 def test_contract_salaries_are_numbers_and_unknown_is_null(
-    demo_archive: tuple[Path, DemoRun],
+    demo_archive: Path,
 ) -> None:
-    root, _ = demo_archive
+    root = demo_archive
     season = build_league().season(2026)
     rows = latest(root, "league-contracts", "contracts")
 
@@ -72,9 +87,9 @@ def test_contract_salaries_are_numbers_and_unknown_is_null(
 
 
 def test_standings_keep_the_conference_and_signed_goal_difference(
-    demo_archive: tuple[Path, DemoRun],
+    demo_archive: Path,
 ) -> None:
-    root, _ = demo_archive
+    root = demo_archive
     league = build_league()
     season = league.season(2026)
     conference = {club.code: club.conference for club in league.clubs}

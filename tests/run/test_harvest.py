@@ -1,6 +1,8 @@
 """The first end-to-end path: recipe → polite fetch → extract → versioned archive.
 
-Against the real demo server on 127.0.0.1; expected values come from the league model and the
+Against the real demo server on 127.0.0.1 wherever fetching is the subject; tests of what a run
+writes (the run report, refused drift) replay the committed cassettes instead (tests/data/
+cassettes/, the same deterministic pages). Expected values come from the league model and the
 server's request log, never from the code under test.
 """
 
@@ -21,6 +23,7 @@ from harvester.demo.server import DemoServer
 from harvester.fetch.pacing import host_key
 from harvester.recipe import Recipe, load_recipe
 from harvester.run import Outcome, harvest, live_source
+from harvester.snapshots.stored_source import StoredSource
 
 TEST_CRAWL_DELAY = 0.05  # tests/conftest.py starts demo servers with this Crawl-delay
 
@@ -28,8 +31,9 @@ RECIPES = Path(__file__).resolve().parents[2] / "recipes"
 Factory = Callable[..., DemoServer]
 
 
-def recipe(name: str, site: DemoServer, **overrides: str) -> Recipe:
-    return load_recipe(RECIPES / f"{name}.toml", {"site": site.base_url, **overrides})
+def recipe(name: str, site: DemoServer | str, **overrides: str) -> Recipe:
+    base = site if isinstance(site, str) else site.base_url
+    return load_recipe(RECIPES / f"{name}.toml", {"site": base, **overrides})
 
 
 def parquet_files(root: Path) -> list[Path]:
@@ -100,8 +104,13 @@ def test_a_failing_table_does_not_stop_the_others(demo_site: DemoServer, tmp_pat
     assert not harvest(standings, archive=str(tmp_path)).failed
 
 
-def test_run_report_is_written_as_json_lines(demo_site: DemoServer, tmp_path: Path) -> None:
-    report = harvest(recipe("league-contracts", demo_site), archive=str(tmp_path))
+def test_run_report_is_written_as_json_lines(
+    cassette: Callable[[str], Path], cassette_site: str, tmp_path: Path
+) -> None:
+    source = StoredSource.from_cassette(cassette("league-contracts-2026"))
+    report = harvest(
+        recipe("league-contracts", cassette_site), archive=str(tmp_path), source=source
+    )
     lines = (tmp_path / "runs" / f"{report.run_id}.jsonl").read_text().splitlines()
     header, *rest = (json.loads(line) for line in lines)
     assert header["run_id"] == report.run_id and header["failed"] is False
@@ -110,15 +119,17 @@ def test_run_report_is_written_as_json_lines(demo_site: DemoServer, tmp_path: Pa
 
 
 def test_refused_drift_keeps_the_archive_and_fails_the_run(
-    demo_site: DemoServer, tmp_path: Path
+    cassette: Callable[[str], Path], cassette_site: str, tmp_path: Path
 ) -> None:
-    # The standings page has 10 clubs; a recipe that demands at least 50 rows refuses it.
+    # The standings page has a row per club; a recipe that demands 50 rows refuses it.
+    assert len(build_league().season(2026).standings) < 50
     text = (RECIPES / "league-standings.toml").read_text(encoding="utf-8")
     strict = tmp_path / "strict.toml"
     strict.write_text(text + "\n[store]\nmin_rows = 50\n", encoding="utf-8")
-    loaded = load_recipe(strict, {"site": demo_site.base_url})
+    loaded = load_recipe(strict, {"site": cassette_site})
     assert loaded.store.min_rows == 50
-    report = harvest(loaded, archive=str(tmp_path / "archive"))
+    source = StoredSource.from_cassette(cassette("league-standings-2026"))
+    report = harvest(loaded, archive=str(tmp_path / "archive"), source=source)
     (outcome,) = report.outcomes
     assert outcome.status == "refused"
     assert "min_rows" in outcome.message and "refused" in outcome.line()

@@ -36,6 +36,7 @@ from harvester.snapshots.index import SnapshotIndex
 from harvester.snapshots.reader import read_record
 from harvester.snapshots.stored_source import StoredSource
 from harvester.store.contract import data_columns
+from tests.cassettes import NetworkGuard
 
 RECIPES = Path(__file__).resolve().parents[2] / "recipes"
 Factory = Callable[..., DemoServer]
@@ -197,19 +198,20 @@ def test_a_cassette_is_self_contained(demo_site: DemoServer, tmp_path: Path) -> 
 
 
 def test_a_page_missing_from_the_cassette_names_the_url_and_the_cassette(
-    demo_site: DemoServer, tmp_path: Path
+    cassette: Callable[[str], Path],
+    cassette_site: str,
+    no_network: NetworkGuard,
+    tmp_path: Path,
 ) -> None:
-    cassette = tmp_path / "standings.warc.gz"
-    harvest(recipe("league-standings", demo_site), archive=str(tmp_path / "a"), record=cassette)
+    standings = cassette("league-standings-2026")  # the 2026 page only
     args = ["harvest", str(RECIPES / "league-standings.toml"), "--archive", str(tmp_path / "b")]
-    args += ["--param", f"site={demo_site.base_url}", "--param", "season=2024"]
-    demo_site.clear_log()
-    result = CliRunner().invoke(app, [*args, "--replay", str(cassette)])
+    args += ["--param", f"site={cassette_site}", "--param", "season=2024"]
+    result = CliRunner().invoke(app, [*args, "--replay", str(standings)])
     assert result.exit_code == 1
     (line,) = result.stdout.splitlines()[:-1]
     assert line.startswith("failed\tleague-standings/standings\tseason=2024")
-    assert demo_site.url("/seasons/2024/standings.html") in line and str(cassette) in line
-    assert demo_site.log == []  # nothing was asked of the site
+    assert f"{cassette_site}/seasons/2024/standings.html" in line and str(standings) in line
+    assert no_network.attempts == []  # nothing was asked of any site
 
 
 def test_cassette_options_are_checked_before_anything_runs(tmp_path: Path) -> None:
