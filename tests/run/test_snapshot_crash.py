@@ -29,6 +29,7 @@ from harvester.demo.server import DemoServer
 from harvester.snapshots.index import SnapshotIndex
 from harvester.snapshots.reader import read_record
 from harvester.snapshots.scan import reindex
+from tests.warc_check import warcio_check as run_warcio_check
 
 RECIPES = Path(__file__).resolve().parents[2] / "recipes"
 KILLS = 5
@@ -129,8 +130,5 @@ def test_sigkill_while_writing_leaves_files_a_rebuild_makes_consistent(tmp_path:
 
 
 def warcio_check(path: Path) -> None:
-    done = subprocess.run(
-        [str(Path(sys.executable).with_name("warcio")), "check", "-v", str(path)],
-        capture_output=True, text=True, check=False,
-    )  # fmt: skip
+    done = run_warcio_check(path)
     assert done.returncode == 0, done.stdout + done.stderr

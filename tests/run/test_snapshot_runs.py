@@ -12,8 +12,6 @@ import json
 import random
 import re
 import shutil
-import subprocess
-import sys
 from collections.abc import Callable
 from pathlib import Path
 from urllib.parse import urlsplit
@@ -37,6 +35,7 @@ from harvester.snapshots.reader import read_record
 from harvester.snapshots.stored_source import StoredSource
 from harvester.store.contract import data_columns
 from tests.cassettes import NetworkGuard
+from tests.warc_check import warcio_check as run_warcio_check
 
 RECIPES = Path(__file__).resolve().parents[2] / "recipes"
 Factory = Callable[..., DemoServer]
@@ -52,10 +51,7 @@ def warc_files(archive: Path) -> list[Path]:
 
 
 def warcio_check(path: Path) -> None:
-    done = subprocess.run(
-        [str(Path(sys.executable).with_name("warcio")), "check", "-v", str(path)],
-        capture_output=True, text=True, check=False,
-    )  # fmt: skip
+    done = run_warcio_check(path)
     assert done.returncode == 0, done.stdout + done.stderr
 
 

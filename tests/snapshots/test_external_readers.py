@@ -43,7 +43,7 @@ def in_archive_parent(
 
 
 def test_duckdb_lists_a_pages_captures_from_the_index(in_archive_parent: DemoServer) -> None:
-    rows = duckdb.sql(snippet("duckdb-index")).fetchall()
+    rows = duckdb.execute(snippet("duckdb-index")).fetchall()
     (logged,) = in_archive_parent.requests_for("/seasons/2026/players.html")
     ((_, status, record_type, record_id, file, offset),) = rows
     assert (status, record_type) == (logged.status, "response")

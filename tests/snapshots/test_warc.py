@@ -8,8 +8,6 @@ from __future__ import annotations
 
 import base64
 import hashlib
-import subprocess
-import sys
 from datetime import UTC, datetime, timedelta
 from pathlib import Path
 
@@ -21,6 +19,7 @@ from harvester.snapshots import liveness
 from harvester.snapshots.entry import NOT_MODIFIED_PROFILE, SAME_PAYLOAD_PROFILE
 from harvester.snapshots.index import SnapshotIndex, read_index_file
 from harvester.snapshots.warc import OPEN_SUFFIX, WarcSnapshotWriter
+from tests.warc_check import warcio_check
 
 T = datetime(2026, 3, 1, 12, 0, 0, 123456, tzinfo=UTC)
 REQUEST = (("User-Agent", "harvester/0 (+mailto:analyst@example.org)"), ("Host", "127.0.0.1"))
@@ -44,13 +43,6 @@ def records(path: Path) -> list[tuple[str, dict[str, str], bytes]]:
             headers = dict(record.rec_headers.headers)
             found.append((record.rec_type, headers, record.content_stream().read()))
     return found
-
-
-def warcio_check(path: Path) -> subprocess.CompletedProcess[str]:
-    return subprocess.run(
-        [str(Path(sys.executable).with_name("warcio")), "check", "-v", str(path)],
-        capture_output=True, text=True, check=False,
-    )  # fmt: skip
 
 
 def test_an_exchange_is_a_response_and_a_request_pointing_at_each_other(tmp_path: Path) -> None:
