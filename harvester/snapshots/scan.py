@@ -240,15 +240,7 @@ def reindex(snapshots_dir: Path) -> ReindexReport:
             ):
                 path.unlink()
                 removed.append(path.name)
-    return ReindexReport(
-        indexed=tuple(scanned),
-        entries=sum(len(entries) for entries in scanned.values()),
-        salvaged=salvaged,
-        removed_open=removed_open,
-        held_open=held_open,
-        removed_index_files=tuple(removed),
-        damaged=tuple(damaged),
-    )
+    return _report(scanned, (salvaged, removed_open, held_open), damaged, tuple(removed))
 
 
 def index_missing(snapshots_dir: Path) -> ReindexReport:
@@ -275,12 +267,23 @@ def index_missing(snapshots_dir: Path) -> ReindexReport:
             known.add(entry)
     for name, entries in scanned.items():
         write_index_file(resolve(entries, known), index_path(snapshots_dir, name))
+    return _report(scanned, (salvaged, removed_open, held_open), damaged)
+
+
+def _report(
+    scanned: dict[str, list[IndexEntry]],
+    salvage: tuple[tuple[str, ...], tuple[str, ...], tuple[str, ...]],
+    damaged: list[tuple[str, str]],
+    removed_index_files: tuple[str, ...] = (),
+) -> ReindexReport:
+    salvaged, removed_open, held_open = salvage
     return ReindexReport(
         indexed=tuple(scanned),
         entries=sum(len(entries) for entries in scanned.values()),
         salvaged=salvaged,
         removed_open=removed_open,
         held_open=held_open,
+        removed_index_files=removed_index_files,
         damaged=tuple(damaged),
     )
 
