@@ -110,6 +110,7 @@ def harvest_command(
             load_recipe(recipe, overrides),
             archive=archive,
             source=source,
+            snapshots=replay is None,  # a replayed capture names its cassette record already
             record=record,
             contact=contact,
             mode="offline" if offline else "refresh" if refresh else "normal",

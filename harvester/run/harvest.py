@@ -71,7 +71,8 @@ def harvest(
     run shows progress line by line). ``record`` names a cassette: one WARC file that also gets
     every exchange of the run; the live fetcher then reads no HTTP cache, so the cassette holds
     each page's exchanges themselves (redirects included) and replays without the cache.
-    ``snapshots=False`` keeps no snapshot archive (rows then have no ``_warc_record_id``).
+    ``snapshots=False`` keeps no snapshot archive: rows have the ``_warc_record_id`` their
+    source gives (a cassette's, the snapshot archive's), else none.
 
     The run report is written however the run ends. Ctrl-C (SIGINT) — and SIGTERM when
     ``stop_on_sigterm`` is set, which only the main thread can do — stops the run at the next
@@ -84,7 +85,7 @@ def harvest(
         "recipe": recipe.name,
         "recipe-sha256": recipe.sha256,
         "run-id": report.run_id,
-        "operator": contact or recipe.contact or configured_contact() or "",
+        "operator": _contact(recipe, contact) or "",
         "robots": "obey",  # WARC 1.1 §6.2's suggested warcinfo field: robots.txt is honoured
     }
     run = _Run(recipe, archive, report, on_outcome, info, record, snapshots)
@@ -219,9 +220,7 @@ def live_source(
     ``on_wait`` (by default a warning on the ``harvester.fetch`` logger). Every answer read in
     full goes to ``on_answer`` (the snapshot recorder); ``use_cache=False`` reads no HTTP cache.
     """
-    identity = Identity.from_contact(
-        contact or recipe.contact or configured_contact(), where=str(recipe.path)
-    )
+    identity = Identity.from_contact(_contact(recipe, contact), where=str(recipe.path))
     return Fetcher(
         identity,
         cache_dir=local_folder(archive, "cache") if use_cache else None,
@@ -232,6 +231,11 @@ def live_source(
         on_wait=on_wait,
         on_answer=on_answer,
     )
+
+
+def _contact(recipe: Recipe, contact: str | None) -> str | None:
+    """The contact a run identifies itself with: given, else the recipe's, else configured."""
+    return contact or recipe.contact or configured_contact()
 
 
 def page_request(recipe: Recipe, page: PlannedPage) -> PageRequest:

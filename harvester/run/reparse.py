@@ -43,6 +43,7 @@ def reparse(
         recipe,
         archive=archive,
         source=StoredSource.from_archive(Path(folder)),
+        snapshots=False,  # every capture already names its record: nothing to keep or look up
         every_value=every_value,
         on_outcome=on_outcome,
         stop_on_sigterm=stop_on_sigterm,
