@@ -13,6 +13,8 @@ The pace per host is shared by every harvest of the user on the machine (``share
 
 from __future__ import annotations
 
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Literal
 
@@ -47,9 +49,25 @@ from harvester.fetch.targets import check_target, redirect_target
 from harvester.fetch.transfer import Answer, Transient, now
 from harvester.fetch.waits import WaitAnnouncer, cap_hint, log_wait, seconds_text
 
-__all__ = ["FetchMode", "Fetcher"]
+__all__ = ["FetchMode", "Fetcher", "RedirectRule"]
 
 FetchMode = Literal["normal", "offline", "refresh"]
+RedirectRule = Callable[[Answer], bool]
+"""Whether to follow one redirect answer (its Location is checked either way)."""
+
+
+@dataclass(frozen=True)
+class _Hops:
+    """How one fetch goes from hop to hop: what every request sends, what the first adds."""
+
+    headers: dict[str, str]  # sent with every request of the fetch
+    conditional: dict[str, str]  # validators, for the first request only
+    content_types: tuple[str, ...] | None  # a success must be one of these (None: any)
+    follow: RedirectRule | None  # None: follow every redirect
+
+
+def _never(answer: Answer) -> bool:
+    return False
 
 
 def _http_client(
@@ -156,14 +174,27 @@ class Fetcher:
         """The ``PageSource`` call: fetch the request's page politely (see ``fetch``)."""
         return await self.fetch(request.url, immutable=request.immutable)
 
-    async def fetch(self, url: str, *, immutable: bool = False) -> Capture:
+    async def fetch(
+        self,
+        url: str,
+        *,
+        immutable: bool = False,
+        headers: Mapping[str, str] | None = None,
+        content_types: tuple[str, ...] | Literal["any"] | None = None,
+        follow: RedirectRule | None = None,
+    ) -> Capture:
         """Fetch one page, from the cache when a fresh copy is there.
 
-        ``immutable`` marks a page that never changes (a past season): once cached it is
-        always fresh. Raises a FetchError subclass for anything that is not a usable page.
+        ``immutable`` marks a page that never changes (a past season, a web-archive capture):
+        once cached it is always fresh. ``headers`` are sent with every request of the fetch
+        (and select among cached copies by their Vary); a success must have one of
+        ``content_types`` (by default the limits' HTML types; "any" checks none); a redirect is
+        followed when ``follow`` says so (by default always). Raises a FetchError subclass for
+        anything that is not a usable page: a redirect not followed is an HttpStatusError.
         """
         check_target(url, self.limits.schemes)
-        request_headers = dict(self.identity.headers())
+        extra = dict(headers or {})
+        request_headers = {**self.identity.headers(), **extra}
         lookup = (
             self.cache.lookup("GET", url, request_headers, now())
             if self.cache is not None
@@ -180,17 +211,10 @@ class Fetcher:
         if lookup.response is not None:
             # Stale entries come with their validators; --refresh revalidates fresh ones too.
             conditional = dict(lookup.conditional_headers) or conditional_headers(lookup.response)
-        host = host_key(url)
-        try:
-            answer, hops = await self._with_retries(url, conditional)
-        except Transient as failure:  # a permanent failure (FetchError) is never retried
-            self.pacer.failed(host_key(failure.url), failure.reason)
-            raise FetchError(
-                f"gave up after {self.retries + 1} attempts: {failure.reason}",
-                url=url,
-                hint="the site may be down or rate-limiting; try again later",
-            ) from None
-        self.pacer.succeeded(host)
+        types = self.limits.content_types if content_types is None else content_types
+        answer, hops = await self._send(
+            url, _Hops(extra, conditional, None if types == "any" else types, follow)
+        )
         if answer.status == 304 and lookup.response is not None and self.cache is not None:
             refreshed = self.cache.freshen(
                 "GET", url, request_headers, self._stored(answer, request_headers, immutable)
@@ -206,6 +230,19 @@ class Fetcher:
             )
         if self.cache is not None:
             self.cache.store("GET", self._stored(answer, request_headers, immutable, key=url))
+        return self._capture(url, answer, hops)
+
+    async def exchange(self, url: str, *, headers: Mapping[str, str] | None = None) -> Capture:
+        """One robots-checked, paced, retried GET whose answer comes back whatever its status.
+
+        No redirect is followed and no cache is read or written: for a conversation whose
+        answer is itself the point, such as a TimeGate's 302 (RFC 7089 §4.1.1).
+        """
+        check_target(url, self.limits.schemes)
+        answer, hops = await self._send(url, _Hops(dict(headers or {}), {}, None, _never))
+        return self._capture(url, answer, hops)
+
+    def _capture(self, url: str, answer: Answer, hops: tuple[str, ...]) -> Capture:
         return Capture(
             url=url,
             final_url=answer.url,
@@ -216,6 +253,20 @@ class Fetcher:
             origin=self.origin,
             redirects=hops,
         )
+
+    async def _send(self, url: str, hops: _Hops) -> tuple[Answer, tuple[str, ...]]:
+        """The answer after retries and the redirects followed, the host's record kept."""
+        try:
+            answer, followed = await self._with_retries(url, hops)
+        except Transient as failure:  # a permanent failure (FetchError) is never retried
+            self.pacer.failed(host_key(failure.url), failure.reason)
+            raise FetchError(
+                f"gave up after {self.retries + 1} attempts: {failure.reason}",
+                url=url,
+                hint="the site may be down or rate-limiting; try again later",
+            ) from None
+        self.pacer.succeeded(host_key(url))
+        return answer, followed
 
     async def check_robots(self, url: str) -> RobotsTxt:
         """The robots.txt rules for ``url``'s host (fetched politely if needed)."""
@@ -324,27 +375,25 @@ class Fetcher:
                 f"robots.txt disallows it for {self.identity.token!r}: {why}", url=url, hint=hint
             )
 
-    async def _with_retries(
-        self, url: str, conditional: dict[str, str]
-    ) -> tuple[Answer, tuple[str, ...]]:
+    async def _with_retries(self, url: str, hops: _Hops) -> tuple[Answer, tuple[str, ...]]:
         async for attempt in self._sender.retrying():
             with attempt:
-                return await self._follow(url, conditional)
+                return await self._follow(url, hops)
         raise AssertionError("unreachable: tenacity re-raises the last failure")
 
-    async def _follow(
-        self, url: str, conditional: dict[str, str]
-    ) -> tuple[Answer, tuple[str, ...]]:
+    async def _follow(self, url: str, how: _Hops) -> tuple[Answer, tuple[str, ...]]:
         """GET with redirects followed by hand, each hop checked, robots-checked and paced."""
         current, seen = url, {url}
         hops: list[str] = []
         for hop in range(self.limits.max_redirects + 1):
             await self._allowed(current)
             # RFC 9110 §15.4: validators are for the original URI only.
-            headers = conditional if hop == 0 else {}
-            answer = await self._sender.send(current, headers, check_type=True)
+            headers = {**how.headers, **how.conditional} if hop == 0 else dict(how.headers)
+            answer = await self._sender.send(current, headers, content_types=how.content_types)
             location = header(answer.headers, "location")
             if answer.status not in REDIRECTS or not location:
+                return answer, tuple(hops)
+            if how.follow is not None and not how.follow(answer):
                 return answer, tuple(hops)
             target = redirect_target(url, current, location.strip(), self.limits.schemes)
             if target in seen:

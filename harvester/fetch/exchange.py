@@ -91,8 +91,13 @@ class PacedSender:
             self._holds_to_share[host] = max(seconds, self._holds_to_share.get(host, 0.0))
         return 0.0
 
-    async def send(self, url: str, headers: dict[str, str], *, check_type: bool) -> Answer:
-        """One paced GET with the hard limits; 429/503/5xx and network errors are transient."""
+    async def send(
+        self, url: str, headers: dict[str, str], *, content_types: tuple[str, ...] | None
+    ) -> Answer:
+        """One paced GET with the hard limits; 429/503/5xx and network errors are transient.
+
+        A success whose Content-Type is not one of ``content_types`` (None: any) is refused
+        before its body is read."""
         self.check_skipped(url)
         host = host_key(url)
         held = self._holds_to_share.pop(host, None)
@@ -103,7 +108,7 @@ class PacedSender:
             try:
                 async with asyncio.timeout(self.limits.total_timeout):
                     answer = await get(
-                        self.client, url, headers, self.limits, check_type=check_type
+                        self.client, url, headers, self.limits, content_types=content_types
                     )
             except (TimeoutError, httpx.TimeoutException) as exc:
                 raise Transient(url, f"timed out ({type(exc).__name__})") from exc
@@ -159,7 +164,7 @@ class PacedSender:
                 # A 429 or 5xx on robots.txt is retried like any page before it counts.
                 async for attempt in self.retrying():
                     with attempt:
-                        answer = await self.send(current, {}, check_type=False)
+                        answer = await self.send(current, {}, content_types=None)
             except Transient as failure:
                 return RobotsAnswer(failure.status, detail=failure.reason)
             target = header(answer.headers, "location")

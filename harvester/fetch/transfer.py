@@ -65,15 +65,16 @@ async def get(
     headers: dict[str, str],
     limits: FetchLimits,
     *,
-    check_type: bool,
+    content_types: tuple[str, ...] | None,
 ) -> Answer:
-    """One GET, streamed within ``limits``; the type checked first when ``check_type``."""
+    """One GET, streamed within ``limits``; a success's type checked first against
+    ``content_types`` (None: any type)."""
     request_time = now()
     try:
         async with client.stream("GET", url, headers=headers) as response:
             status = response.status_code
-            if check_type and 200 <= status < 300:
-                _check_content_type(url, response.headers.get("content-type"), limits)
+            if content_types is not None and 200 <= status < 300:
+                _check_content_type(url, response.headers.get("content-type"), content_types)
             body = await _read_body(url, response, limits)
     except httpx.DecodingError as exc:
         coding = response.headers.get("content-encoding", "?")
@@ -116,11 +117,12 @@ async def get(
     )
 
 
-def _check_content_type(url: str, content_type: str | None, limits: FetchLimits) -> None:
+def _check_content_type(url: str, content_type: str | None, wanted: tuple[str, ...]) -> None:
     kind = (content_type or "").split(";", 1)[0].strip().lower()
-    if kind not in limits.content_types:
+    if kind not in wanted:
+        what = "an HTML page" if "text/html" in wanted else " or ".join(wanted)
         raise FetchLimitError(
-            f"expected an HTML page, got {content_type or 'no Content-Type'}",
+            f"expected {what}, got {content_type or 'no Content-Type'}",
             url=url,
             hint="point the recipe at the page that holds the table",
         )
