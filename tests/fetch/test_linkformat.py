@@ -17,7 +17,7 @@ from hypothesis import strategies as st
 
 from harvester.fetch.linkformat import Link, parse_links
 
-# -- RFC examples ------------------------------------------------------------------------------
+# -- RFC examples ----------------------------------------------------------------------------------
 
 
 def test_rfc8288_example_with_title() -> None:
@@ -128,7 +128,7 @@ def test_rfc7089_timemap_entries_keep_quoted_datetimes_whole() -> None:
     assert found.links[1].rels == ("last", "memento")  # RFC 7089 §2.2: shared rel
 
 
-# -- the grammar's corners ---------------------------------------------------------------------
+# -- the grammar's corners -------------------------------------------------------------------------
 
 
 def test_empty_and_blank_input_give_nothing() -> None:
@@ -231,7 +231,7 @@ def test_a_link_is_a_frozen_hashable_value() -> None:
     assert one == Link(target="m", rels=("a",), params={"rel": "a"})
 
 
-# -- recovery from broken text ------------------------------------------------------------------
+# -- recovery from broken text ---------------------------------------------------------------------
 
 
 def test_garbage_between_link_values_is_skipped_and_reported() -> None:
@@ -301,7 +301,7 @@ def test_problems_number_every_list_element_tried() -> None:
     )
 
 
-# -- properties ---------------------------------------------------------------------------------
+# -- properties ------------------------------------------------------------------------------------
 
 _PIECES = st.sampled_from(
     ["<", ">", '"', "\\", ",", ";", "=", " ", "\n", "rel", "a", "é", "[", "<a>"]

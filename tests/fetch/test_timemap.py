@@ -73,7 +73,7 @@ def utc(
     return datetime(year, month, day, hour, minute, second, tzinfo=UTC)
 
 
-# -- reading TimeMaps ---------------------------------------------------------------------------
+# -- reading TimeMaps ------------------------------------------------------------------------------
 
 
 def test_rfc7089_example_timemap() -> None:
@@ -236,7 +236,7 @@ def test_read_timemap_never_raises(text: str) -> None:
     read_timemap(text, base="http://arch.test/tm")
 
 
-# -- Memento datetimes ---------------------------------------------------------------------------
+# -- Memento datetimes -----------------------------------------------------------------------------
 
 
 @pytest.mark.parametrize(
@@ -305,7 +305,7 @@ def test_format_memento_datetime_refuses_naive() -> None:
         format_memento_datetime(datetime(2001, 9, 11, 20, 35, 0))
 
 
-# -- merging pages --------------------------------------------------------------------------------
+# -- merging pages ---------------------------------------------------------------------------------
 
 PAGE_1 = """<http://orig.test/t>; rel=original,
 <http://arch.test/tm/1>; rel=self,
