@@ -308,10 +308,10 @@ _PIECES = st.sampled_from(
 )
 
 
-@given(st.text())
+@given(st.text(), st.none() | st.just("http://h.test/dir/") | st.text())
 @settings(max_examples=300)
-def test_never_raises_on_any_text(text: str) -> None:
-    found = parse_links(text, base="http://h.test/dir/")
+def test_never_raises_on_any_text(text: str, base: str | None) -> None:
+    found = parse_links(text, base=base)
     assert isinstance(found.links, tuple) and isinstance(found.problems, tuple)
 
 
