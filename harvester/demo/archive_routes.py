@@ -76,7 +76,7 @@ from harvester.demo.league import League, build_league
 from harvester.demo.loopback import LOOPBACK, Request, check_option
 from harvester.demo.replies import HTML, Reply, error_reply, page
 
-__all__ = ["LINK_FORMAT", "ArchiveRoutes", "http_datetime"]
+__all__ = ["LINK_FORMAT", "ArchiveRoutes", "http_datetime", "rewrite_links"]
 
 LINK_FORMAT = "application/link-format"
 _TIMEMAP = re.compile(r"/timemap/(?:page/([1-9]\d*)/)?(.+)")
@@ -130,9 +130,9 @@ class ArchiveRoutes:
 
     def _timemap(self, uri_r: str, number: int, base: str) -> Reply:
         captures = self.holdings.captures(uri_r)
-        size = self.timemap_page_size or len(captures)
+        size = self.timemap_page_size or len(captures) or 1
         pages = [captures[start : start + size] for start in range(0, len(captures), size)]
-        if number > len(pages):
+        if number > len(pages):  # no pages at all for a URI-R the archive does not hold
             return error_reply(404)
         listed = pages[number - 1]
         self_path = "/timemap/" if number == 1 else f"/timemap/page/{number}/"
@@ -219,18 +219,7 @@ class ArchiveRoutes:
 
     def _visitor_view(self, capture: Capture, body: bytes, charset: str) -> bytes:
         """The body with its links into the archive and the banner right after ``<body>``."""
-        text = body.decode(charset)
-        prefix = f"/web/{capture.timestamp}/"
-
-        def rewrite(match: re.Match[str]) -> str:
-            value = match[2]
-            if value == self.site or value.startswith(self.site + "/"):
-                value = prefix + value
-            elif value.startswith("/") and not value.startswith("//"):
-                value = prefix + self.site + value
-            return f'{match[1]}="{value}"'
-
-        text = _LINK_ATTRIBUTE.sub(rewrite, text)
+        text = rewrite_links(body.decode(charset), self.site, capture.timestamp)
         banner = (
             '<div id="demo-archive-banner">Demo web archive (invented, loopback only): this is '
             f"a capture of {escape(capture.uri_r)} made {_date(capture)}. "
@@ -243,6 +232,22 @@ class ArchiveRoutes:
     def _robots(self) -> bytes:
         delay = format(Decimal(repr(self.crawl_delay)).normalize(), "f")  # 0.05, never 5e-02
         return f"User-agent: *\nCrawl-delay: {delay}\nAllow: /\n".encode()
+
+
+def rewrite_links(text: str, site: str, timestamp: str) -> str:
+    """``text`` with each href/src to ``site`` (absolute, or an absolute path) into the archive."""
+    prefix = f"/web/{timestamp}/"
+
+    def rewrite(match: re.Match[str]) -> str:
+        value = match[2]
+        if value == site or value.startswith(site + "/"):
+            value = prefix + value
+        elif value.startswith("/") and not value.startswith("//"):
+            value = prefix + site + value
+        # Relative links resolve against the URI-M by themselves, other hosts' stay live.
+        return f'{match[1]}="{value}"'
+
+    return _LINK_ATTRIBUTE.sub(rewrite, text)
 
 
 def http_datetime(value: str) -> datetime | None:
