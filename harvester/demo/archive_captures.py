@@ -20,6 +20,7 @@ from harvester.demo.replies import HTML, error_reply, redirect_reply
 
 __all__ = [
     "CAPTURE_TIMES",
+    "CP1252_HTML",
     "CP1252_LAST_SEASON",
     "ERROR_SEASONS",
     "LIVE_SEASONS_KEPT",

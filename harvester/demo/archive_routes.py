@@ -76,7 +76,7 @@ from harvester.demo.league import League, build_league
 from harvester.demo.loopback import LOOPBACK, Request, check_option
 from harvester.demo.replies import HTML, Reply, error_reply, page
 
-__all__ = ["LINK_FORMAT", "ArchiveRoutes", "http_datetime", "rewrite_links"]
+__all__ = ["LINK_FORMAT", "ArchiveRoutes", "parse_accept_datetime", "rewrite_links"]
 
 LINK_FORMAT = "application/link-format"
 _TIMEMAP = re.compile(r"/timemap/(?:page/([1-9]\d*)/)?(.+)")
@@ -160,7 +160,7 @@ class ArchiveRoutes:
             return error_reply(404)
         if accept_datetime is None:
             chosen = captures[-1]  # §4.5.3: the most recent
-        elif (wanted := http_datetime(accept_datetime)) is None:
+        elif (wanted := parse_accept_datetime(accept_datetime)) is None:
             return error_reply(400)  # §4.5.3: a malformed Accept-Datetime
         else:
             chosen = _closest(captures, wanted)
@@ -250,7 +250,7 @@ def rewrite_links(text: str, site: str, timestamp: str) -> str:
     return _LINK_ATTRIBUTE.sub(rewrite, text)
 
 
-def http_datetime(value: str) -> datetime | None:
+def parse_accept_datetime(value: str) -> datetime | None:
     """An RFC 7089 §2.1.1 rfc1123-date (GMT, case-sensitive) as aware UTC; None if not one."""
     match = _RFC1123.fullmatch(value.strip())
     if match is None:
