@@ -44,7 +44,8 @@ that lost a slash after its scheme, or arrives percent-encoded, is read as meant
 - ``/web/{YYYYMMDDhhmmss}/{URI-R}``: the memento as a visitor sees it: the recorded status,
   Content-Type (and Location) and body, with ``<div id="demo-archive-banner">`` injected right
   after ``<body>`` and the page's links to the live site rewritten into the archive
-  (``href="/x"`` and ``href="{site}/x"`` → ``href="/web/{timestamp}/{site}/x"``);
+  (``href="/x"`` and ``href="{site}/x"`` → ``href="/web/{timestamp}/{site}/x"``, ``src`` too;
+  relative links, which resolve against the URI-M, and other hosts' links stay as they are);
 - ``/web/{YYYYMMDDhhmmss}raw/{URI-R}``: the same capture's recorded bytes, unmodified;
 - both variants carry ``Memento-Datetime`` (IMF-fixdate GMT, §2.1.1) and
   ``Link: <URI-R>; rel="original", <{base}/timegate/URI-R>; rel="timegate",
