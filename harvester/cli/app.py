@@ -12,6 +12,7 @@ from typing import Annotated
 import typer
 
 from harvester._version import __version__
+from harvester.cli.captures import captures_command
 from harvester.cli.demo import demo_command
 from harvester.cli.extract import extract_command
 from harvester.cli.harvest import harvest_command, reparse_command
@@ -70,6 +71,7 @@ app.command(name="harvest")(harvest_command)
 app.command(name="reparse")(reparse_command)
 app.command(name="demo")(demo_command)
 app.command(name="robots")(robots_command)
+app.command(name="captures")(captures_command)
 app.command(name="versions")(versions_command)
 app.command(name="diff")(diff_command)
 app.add_typer(snapshots_app, name="snapshots")

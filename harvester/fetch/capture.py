@@ -55,11 +55,18 @@ class Capture:
     memento_datetime: datetime | None = None  # a web-archive capture's time (RFC 7089 §2.1.1)
     memento_uri: str | None = None  # the web archive's URI of that capture (URI-M)
     record_id: str | None = None  # the WARC-Record-ID it was stored as in the snapshot archive
+    notes: tuple[str, ...] = ()  # what a reader of the run should know (captures skipped, …)
 
     @property
     def sha256(self) -> str:
         """Hex SHA-256 of the body."""
         return hashlib.sha256(self.body).hexdigest()
+
+    @property
+    def page_url(self) -> str:
+        """The address the page's own links are relative to: for a web-archive capture the
+        page's original URL (its bytes are what the site served there), else the final URL."""
+        return self.url if self.memento_datetime is not None else self.final_url
 
     @property
     def charset(self) -> str | None:

@@ -60,9 +60,17 @@ class Identity:
             raise FetchError(f"{prefix}{problem}", hint=CONTACT_HINT)
         return cls(checked)
 
+    @classmethod
+    def without_contact(cls) -> Identity:
+        """An identity with no contact, for a look-up that fetches no site's pages (a web
+        archive's list of captures); the product token and version are still sent."""
+        return cls("")
+
     @property
     def user_agent(self) -> str:
         """The User-Agent header value."""
+        if not self.contact:
+            return f"{self.token}/{__version__}"
         return f"{self.token}/{__version__} (+{self.contact})"
 
     def headers(self) -> dict[str, str]:

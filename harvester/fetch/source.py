@@ -13,25 +13,30 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from datetime import datetime
 from types import MappingProxyType
-from typing import Protocol, runtime_checkable
+from typing import Literal, Protocol, runtime_checkable
 
 from harvester.fetch.capture import Capture
 
-__all__ = ["PageRequest", "PageSource"]
+__all__ = ["PageRequest", "PageSource", "PastMode"]
+
+PastMode = Literal["live", "capture", "live-then-capture"]
+"""Where a page comes from: the live site, a web-archive capture, or the first then the second."""
 
 
 @dataclass(frozen=True)
 class PageRequest:
     """One planned page: its URL, the parameter values behind it, and what the plan knows.
 
-    ``immutable`` marks a page the recipe says never changes (a past season); ``capture_near``
-    is the date a web-archive capture of it should be near, when the recipe names one.
+    ``immutable`` marks a page the recipe says never changes (a past season); ``past`` says
+    where to take it from; ``capture_near`` is the date a web-archive capture of it should be
+    near, when the recipe names one (else the latest capture).
     """
 
     url: str
     parameters: Mapping[str, int | str] = field(default_factory=lambda: MappingProxyType({}))
     immutable: bool = False
     capture_near: datetime | None = None  # aware, UTC
+    past: PastMode = "live"
 
 
 @runtime_checkable

@@ -16,6 +16,9 @@ from datetime import datetime
 from pathlib import Path
 from typing import Any
 
+from harvester.config import config_path, config_table
+from harvester.fetch.web_archive import WebArchive
+from harvester.recipe.captures import read_captures
 from harvester.recipe.model import FetchSettings, Parameter, Recipe, RecipeTable, StoreSettings
 from harvester.recipe.parameters import read_parameters, set_parameter
 from harvester.recipe.readers import Where, suggest
@@ -32,7 +35,7 @@ __all__ = ["MAX_RECIPE_BYTES", "load_recipe"]
 
 MAX_RECIPE_BYTES = 1_048_576  # 1 MiB; the demo recipes are under 3 KB (common practice, no source)
 
-SECTIONS = ("recipe", "parameters", "fetch", "tables", "store")
+SECTIONS = ("recipe", "parameters", "fetch", "captures", "tables", "store")
 _REQUIRED = {"name": 'name = "league-players"', "site": 'site = "http://127.0.0.1:8650"'}
 
 
@@ -70,6 +73,7 @@ def load_recipe(path: str | Path, overrides: Mapping[str, str] | None = None) ->
     store = _read_store(data.get("store", {}), where.at("store"), names, tables, fetch.url)
     site, parameters = _apply_overrides(overrides or {}, about["site"], parameters, singles, where)
     _check_capture_near(fetch, parameters, tables, where)  # after --param: it uses current values
+    captures = _read_archive(data.get("captures"), where.at("captures"), fetch, where)
     return Recipe(
         name=about["name"],
         path=Path(path),
@@ -81,6 +85,7 @@ def load_recipe(path: str | Path, overrides: Mapping[str, str] | None = None) ->
         fetch=fetch,
         tables=tables,
         store=store,
+        captures=captures,
     )
 
 
@@ -218,6 +223,23 @@ def _check_capture_near(
         datetime.fromisoformat(target)  # ISO 8601 date or date-time
     except ValueError:
         at.fail(f"gives {target!r} for the current values, not a date", 'e.g. "{season}-06-30"')
+
+
+def _read_archive(
+    value: object, at: Where, fetch: FetchSettings, where: Where
+) -> WebArchive | None:
+    """The recipe's web archive ([captures] over the user config's); one is needed unless
+    ``past`` is "live"."""
+    config = config_table("captures")
+    defaults = (config, Where(str(config_path()), "captures")) if config is not None else None
+    archive = read_captures(value, at, defaults)
+    if archive is None and fetch.past != "live":
+        where.at("fetch").at("past").fail(
+            f"is {fetch.past!r}, but no web archive is configured to take captures from",
+            'add [captures] with timemap = "https://archive.example.net/timemap/{url}" (or set'
+            ' one in the user config), or write past = "live"',
+        )
+    return archive
 
 
 def _apply_overrides(

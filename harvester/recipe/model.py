@@ -18,6 +18,8 @@ from typing import Literal
 from harvester.errors import RecipeError
 from harvester.extract.rules import TableRule
 from harvester.fetch.limits import DEFAULT_MAX_WAIT
+from harvester.fetch.source import PastMode
+from harvester.fetch.web_archive import WebArchive
 from harvester.recipe.readers import suggest
 from harvester.recipe.templates import expand_template, template_names
 
@@ -33,7 +35,6 @@ __all__ = [
 ]
 
 MAX_PLAN_PAGES = 100_000  # pages one plan may hold: at one a second, more than a day of fetching
-PastMode = Literal["live", "capture", "live-then-capture"]
 DriftPolicy = Literal["refuse", "warn", "accept"]
 
 
@@ -103,6 +104,7 @@ class Recipe:
     fetch: FetchSettings
     tables: tuple[RecipeTable, ...]
     store: StoreSettings
+    captures: WebArchive | None = None  # [captures], over the user config's; None: no archive
 
     @property
     def table_names(self) -> tuple[str, ...]:

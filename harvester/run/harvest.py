@@ -14,9 +14,10 @@ from __future__ import annotations
 
 import asyncio
 import contextlib
+import dataclasses
 import signal
 import uuid
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from contextlib import AsyncExitStack
 from datetime import UTC, datetime
 from pathlib import Path
@@ -25,13 +26,19 @@ import httpx
 from pyarrow import fs as pafs
 
 from harvester.config import configured_contact
-from harvester.errors import ArchiveUnwritableError, HarvesterError, RunInterrupted
+from harvester.errors import (
+    ArchiveUnwritableError,
+    HarvesterError,
+    RunInterrupted,
+    TableNotFoundError,
+)
 from harvester.extract.table import extract_table, read_page
 from harvester.fetch.capture import Capture
 from harvester.fetch.client import Fetcher, FetchMode
 from harvester.fetch.exchange import AnswerListener
 from harvester.fetch.identity import Identity
 from harvester.fetch.limits import FetchLimits
+from harvester.fetch.past import past_source
 from harvester.fetch.source import PageRequest, PageSource
 from harvester.fetch.waits import WaitAnnouncer, log_wait
 from harvester.recipe.model import PlannedPage, Recipe
@@ -45,6 +52,8 @@ from harvester.store.writer import ArchiveWriter
 from harvester.timestamps import rfc3339
 
 __all__ = ["harvest", "live_source", "local_folder", "page_request"]
+
+_LIVE = frozenset({"live", "cache"})  # origins of a live page (a cached copy is one too)
 
 
 def harvest(
@@ -164,7 +173,8 @@ class _Run:
                 writer = stack.enter_context(ArchiveWriter(self.archive))
                 recorder = stack.enter_context(self._recorder())
                 if not isinstance(source, PageSource):
-                    source = await stack.enter_async_context(source(recorder.keep))
+                    fetcher = await stack.enter_async_context(source(recorder.keep))
+                    source = past_source(fetcher, self.recipe.captures)
                 source = recorder.wrap(source)
                 for page in pages:
                     outcomes = await _harvest_page(self.recipe, page, source, writer, self.report)
@@ -245,7 +255,11 @@ def page_request(recipe: Recipe, page: PlannedPage) -> PageRequest:
         near = datetime.fromisoformat(expand_template(recipe.fetch.capture_near, page.parameters))
         near = near.replace(tzinfo=UTC) if near.utcoffset() is None else near.astimezone(UTC)
     return PageRequest(
-        page.url, page.parameters, immutable=_immutable(recipe, page), capture_near=near
+        page.url,
+        page.parameters,
+        immutable=_immutable(recipe, page),
+        capture_near=near,
+        past=recipe.fetch.past,
     )
 
 
@@ -277,29 +291,80 @@ def _row_source(recipe: Recipe, capture: Capture, selector: str) -> RowSource:
 async def _harvest_page(
     recipe: Recipe, page: PlannedPage, source: PageSource, writer: ArchiveWriter, report: RunReport
 ) -> list[Outcome]:
-    """The outcome of each table of one page; only an unwritable archive escapes as an error."""
+    """The outcome of each table of one page; only an unwritable archive escapes as an error.
+
+    Under ``past = "live-then-capture"`` a live page that lacks a table is asked for again
+    from the web archive, for the tables it lacks.
+    """
+    request = page_request(recipe, page)
+    outcomes: dict[str, Outcome] = {}
+    missing = await _harvest_capture(recipe, page, request, source, writer, report, outcomes)
+    if missing and request.past == "live-then-capture":
+        fallback = dataclasses.replace(request, past="capture")
+        await _harvest_capture(
+            recipe, page, fallback, source, writer, report, outcomes, tables=missing
+        )
+        for name in missing:
+            said = outcomes[name]
+            notes = ("the live page lacks the table", *said.notes)
+            outcomes[name] = dataclasses.replace(said, notes=notes)
+    return [outcomes[name] for name in page.tables]
+
+
+async def _harvest_capture(
+    recipe: Recipe,
+    page: PlannedPage,
+    request: PageRequest,
+    source: PageSource,
+    writer: ArchiveWriter,
+    report: RunReport,
+    outcomes: dict[str, Outcome],
+    *,
+    tables: Sequence[str] | None = None,
+) -> list[str]:
+    """Capture ``request``'s page and store ``tables`` (by default all the page's) from it;
+    each table's outcome goes into ``outcomes``. The tables a live page lacks are returned."""
     partition = [(name, page.parameters.get(name)) for name in recipe.store.partition_by]
     where = dict(partition)
+    names = list(page.tables if tables is None else tables)
+    capture: Capture | None = None
 
     def outcome(
         table: str, status: Status, message: str, rows: int = 0, version: int = 0
     ) -> Outcome:
-        return Outcome(recipe.name, table, page.url, where, status, rows, version, message)
+        said = capture
+        return Outcome(
+            recipe.name,
+            table,
+            page.url,
+            where,
+            status,
+            rows,
+            version,
+            message,
+            origin=said.origin if said else "",
+            memento_datetime=rfc3339(said.memento_datetime)
+            if said and said.memento_datetime
+            else None,
+            notes=said.notes if said else (),
+        )
 
     try:
-        capture = await source.capture(page_request(recipe, page))
-        parsed = read_page(capture.body, capture.final_url, capture.charset)
+        capture = await source.capture(request)
+        parsed = read_page(capture.body, capture.page_url, capture.charset)
     except ArchiveUnwritableError:
         raise  # the snapshot archive cannot keep what is fetched: every page would fail alike
     except HarvesterError as error:
-        return [outcome(table, "failed", str(error)) for table in page.tables]
+        outcomes.update((name, outcome(name, "failed", str(error))) for name in names)
+        return []
     except Exception as error:
-        return [outcome(table, "failed", _unexpected(error)) for table in page.tables]
-    outcomes = []
-    for name in page.tables:
+        outcomes.update((name, outcome(name, "failed", _unexpected(error))) for name in names)
+        return []
+    lacking = []
+    for name in names:
         rule = recipe.table_rule(name)
         try:
-            extracted = extract_table(parsed, rule, base_url=capture.final_url)
+            extracted = extract_table(parsed, rule, base_url=capture.page_url)
             rows = list(extracted.source_rows)
             data = with_provenance(extracted.table, _row_source(recipe, capture, rule.select), rows)
             result = writer.commit(
@@ -315,14 +380,19 @@ async def _harvest_page(
             )
         except ArchiveUnwritableError:
             raise  # every later table would fail the same way
+        except TableNotFoundError as error:
+            if capture.origin in _LIVE:
+                lacking.append(name)
+            outcomes[name] = outcome(name, "failed", str(error))
+            continue
         except HarvesterError as error:
-            outcomes.append(outcome(name, "failed", str(error)))
+            outcomes[name] = outcome(name, "failed", str(error))
             continue
         except Exception as error:
-            outcomes.append(outcome(name, "failed", _unexpected(error)))
+            outcomes[name] = outcome(name, "failed", _unexpected(error))
             continue
-        outcomes.append(outcome(name, result.status, result.message, result.rows, result.version))
-    return outcomes
+        outcomes[name] = outcome(name, result.status, result.message, result.rows, result.version)
+    return lacking
 
 
 def _unexpected(error: Exception) -> str:
@@ -345,6 +415,8 @@ def _footer_provenance(
         "source_urls": [capture.url],
         "captured_at": rfc3339(capture.fetched_at),
         "capture_origin": capture.origin,
+        "memento_datetime": rfc3339(capture.memento_datetime) if capture.memento_datetime else None,
+        "memento_uri": capture.memento_uri,
         "key": list(key),
     }
 

@@ -34,6 +34,16 @@ class Outcome:
     rows: int = 0
     version: int = 0
     message: str = ""
+    origin: str = ""  # where the page came from: live, cache, web-archive, …
+    memento_datetime: str | None = None  # a web-archive capture's date (RFC 3339)
+    notes: tuple[str, ...] = ()  # what the source said of the page (captures skipped, …)
+
+    @property
+    def source_text(self) -> str:
+        """``live``, ``cache``, or ``capture of 2019-06-28T10:00:00Z`` for a web-archive one."""
+        if self.origin == "web-archive" and self.memento_datetime:
+            return f"capture of {self.memento_datetime}"
+        return self.origin
 
     def line(self) -> str:
         """One human line for the run summary."""
@@ -42,8 +52,10 @@ class Outcome:
         # The store's message repeats table and partition; it is worth a column only when it
         # says why (a failure, a refusal) or warns (drift).
         worth = self.status in ("failed", "refused") or "drift" in self.message
-        parts = [self.status, f"{self.dataset}/{self.table}", where, detail, self.url]
-        parts.append(self.message if worth else "")
+        parts = [self.status, f"{self.dataset}/{self.table}", where, detail, self.source_text]
+        parts.append(self.url)
+        said = [self.message] if worth else []
+        parts.append("; ".join([*said, *self.notes]))
         return "\t".join(tsv_field(part) for part in parts if part)
 
 
