@@ -7,18 +7,23 @@ Provenance columns, Parquet footers, run reports, lock files and every JSON outp
 from __future__ import annotations
 
 from datetime import UTC, datetime
+from typing import Literal
 
 __all__ = ["now_rfc3339", "parse_rfc3339", "rfc3339"]
 
 
-def rfc3339(moment: datetime) -> str:
+def rfc3339(
+    moment: datetime, *, timespec: Literal["microseconds", "seconds"] = "microseconds"
+) -> str:
     """An aware datetime as RFC 3339 UTC with a ``Z`` and microseconds (RFC 3339 §5.6).
 
-    A naive datetime is refused: guessing its zone would shift the instant silently.
+    ``timespec="seconds"`` drops the fraction, for times that have none (a Memento-Datetime
+    is an HTTP-date, to the second). A naive datetime is refused: guessing its zone would
+    shift the instant silently.
     """
     if moment.utcoffset() is None:
         raise ValueError(f"{moment.isoformat()} has no time zone; pass an aware datetime")
-    text = moment.astimezone(UTC).isoformat(timespec="microseconds")
+    text = moment.astimezone(UTC).isoformat(timespec=timespec)
     return text.replace("+00:00", "Z")
 
 

@@ -4,7 +4,9 @@
 ``TEST_CRAWL_DELAY`` seconds, so tests stay quick. ``demo_site_factory(**options)`` starts servers
 with any ``DemoServer`` options (the crawl delay again defaults to ``TEST_CRAWL_DELAY``). Every
 server is stopped after the test, and a server-side exception fails the test at teardown.
-Every test also gets its own shared-pace state folder (``private_state_dir``).
+``demo_archive`` is a started ``DemoWebArchive`` holding captures of ``demo_site``'s retired
+seasons (same crawl delay). Every test also gets its own shared-pace state folder
+(``private_state_dir``).
 
 Tests whose subject is extraction, storage or provenance rather than fetching replay committed
 cassettes instead (``tests/data/cassettes/``, re-recorded by ``python tools/record_cassettes.py``):
@@ -25,6 +27,7 @@ import pytest
 from hypothesis import settings
 
 from harvester.demo.server import DemoServer
+from harvester.demo.web_archive import DemoWebArchive
 from harvester.fetch.shared_pace import STATE_DIR_VARIABLE
 from tests.cassettes import CASSETTE_DIR, NetworkGuard
 
@@ -32,6 +35,7 @@ __all__ = [
     "TEST_CRAWL_DELAY",
     "cassette",
     "cassette_site",
+    "demo_archive",
     "demo_site",
     "demo_site_factory",
     "no_network",
@@ -68,7 +72,17 @@ def private_state_dir(
     return folder
 
 
-def _stop(*sites: DemoServer) -> None:
+@pytest.fixture
+def demo_archive(demo_site: DemoServer) -> Iterator[DemoWebArchive]:
+    """A started demo web archive of ``demo_site``'s retired seasons, stopped after the test."""
+    archive = DemoWebArchive(site=demo_site.base_url, crawl_delay=TEST_CRAWL_DELAY).start()
+    try:
+        yield archive
+    finally:
+        _stop(archive)
+
+
+def _stop(*sites: DemoServer | DemoWebArchive) -> None:
     for site in sites:
         site.stop()
     for site in sites:

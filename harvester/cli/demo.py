@@ -41,13 +41,15 @@ def demo_command(
 ) -> None:
     """Harvest the invented league from its loopback site into an archive, and read it back.
 
-    Starts the demo site on 127.0.0.1, runs recipes/league-*.toml against it (robots.txt,
-    pacing, cache, extraction, versioned Parquet), prints one line per table, then reads the
-    archive back. Run it twice: the second run finds nothing changed.
+    Starts the demo site and its web archive on 127.0.0.1, runs recipes/league-*.toml against
+    them (robots.txt, pacing, cache, extraction, versioned Parquet): the current season from
+    the live site, and two seasons the live site no longer serves from web-archive captures.
+    Prints one line per table, then reads the archive back. Run it twice: the second run finds
+    nothing changed.
 
     Example: harvester demo --archive /tmp/league-archive
     """
-    from harvester.demo.tour import preview_archive, run_demo, write_demo_site
+    from harvester.demo.tour import DEMO_PAST_SEASONS, preview_archive, run_demo, write_demo_site
 
     if serve:
         _serve_demo(port, crawl_delay)
@@ -58,11 +60,11 @@ def demo_command(
             typer.echo(f"wrote {len(written)} pages of the demo site under {write_site}")
             return
         typer.echo("harvesting the demo league from a loopback site (invented data) …")
-        done = run_demo(archive, season)
+        done = run_demo(archive, season, seasons=DEMO_PAST_SEASONS if season is None else ())
         previews = preview_archive(archive, rows, season)
     except HarvesterError as error:
         fail(error)
-    typer.echo(f"demo site was {done.site}; archive: {archive}")
+    typer.echo(f"demo site was {done.site}, its web archive {done.web_archive}; archive: {archive}")
     for report in done.reports:
         for outcome in report.outcomes:
             typer.echo(outcome.line())

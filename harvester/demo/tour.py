@@ -1,26 +1,35 @@
 """The demo: harvest the invented league from its loopback site into an archive, read it back.
 
 ``run_demo`` starts the demo site on 127.0.0.1 (port 8650, the demo recipes' own ``site``, when
-it is free), runs the three demo recipes against it exactly as a user would run a recipe
-against a real site — robots.txt, pacing, cache, extraction, versioned Parquet — and stops it.
+it is free) and its web archive (port 8651, the recipes' ``[captures]``, when free), runs the
+three demo recipes against them exactly as a user would run a recipe against a real site —
+robots.txt, pacing, cache, captures of retired seasons, extraction, versioned Parquet — and
+stops them. The current season comes from the live site; with ``seasons`` the earlier ones
+the live site no longer serves come from captures in the web archive.
 """
 
 from __future__ import annotations
 
+import dataclasses
 import socket
+from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
 from harvester.demo.league import build_league
 from harvester.demo.pages import write_site
 from harvester.demo.server import LOOPBACK, DemoServer
+from harvester.demo.web_archive import DemoWebArchive
 from harvester.errors import HarvesterError
-from harvester.recipe import load_recipe
+from harvester.recipe import Recipe, load_recipe
 from harvester.run import RunReport, harvest
 from harvester.store.archive import Archive
 from harvester.store.contract import data_columns
 
 __all__ = [
+    "DEMO_ARCHIVE",
+    "DEMO_ARCHIVE_PORT",
+    "DEMO_PAST_SEASONS",
     "DEMO_PORT",
     "DEMO_RECIPES",
     "DemoRun",
@@ -28,11 +37,15 @@ __all__ = [
     "demo_recipe_dir",
     "preview_archive",
     "run_demo",
+    "with_demo_archive",
     "write_demo_site",
 ]
 
 DEMO_RECIPES = ("league-players.toml", "league-contracts.toml", "league-standings.toml")
 DEMO_PORT = 8650  # the port the demo recipes name in their site
+DEMO_ARCHIVE_PORT = 8651  # the port of the web archive their [captures] name
+DEMO_ARCHIVE = f"http://{LOOPBACK}:{DEMO_ARCHIVE_PORT}"
+DEMO_PAST_SEASONS = (2023, 2019)  # gone from the live site (404, 410): taken from captures
 
 
 @dataclass(frozen=True)
@@ -42,6 +55,7 @@ class DemoRun:
     site: str
     archive: str
     reports: tuple[RunReport, ...]
+    web_archive: str = ""
 
 
 @dataclass(frozen=True)
@@ -74,19 +88,46 @@ def _free(port: int) -> bool:
 
 
 def run_demo(
-    archive: str = "archive", season: int | None = None, crawl_delay: float = 0.2
+    archive: str = "archive",
+    season: int | None = None,
+    crawl_delay: float = 0.2,
+    seasons: Sequence[int] = (),
 ) -> DemoRun:
-    """Serve the demo site, harvest every demo recipe into ``archive``, stop the site."""
+    """Serve the demo site and its web archive, harvest every demo recipe into ``archive``
+    (``season``, else the current one, then each of ``seasons``), stop both."""
     folder = demo_recipe_dir()
     port = DEMO_PORT if _free(DEMO_PORT) else 0
-    with DemoServer(port=port, crawl_delay=crawl_delay) as site:
+    archive_port = DEMO_ARCHIVE_PORT if _free(DEMO_ARCHIVE_PORT) else 0
+    with (
+        DemoServer(port=port, crawl_delay=crawl_delay) as site,
+        DemoWebArchive(site=site.base_url, port=archive_port, crawl_delay=crawl_delay) as web,
+    ):
         reports = []
+        planned = [season] if season is not None else [None]
         for file_name in DEMO_RECIPES:
-            overrides = {"site": site.base_url}
-            if season is not None:
-                overrides["season"] = str(season)
-            reports.append(harvest(load_recipe(folder / file_name, overrides), archive=archive))
-        return DemoRun(site.base_url, archive, tuple(reports))
+            for value in [*planned, *seasons]:
+                overrides = {"site": site.base_url}
+                if value is not None:
+                    overrides["season"] = str(value)
+                recipe = with_demo_archive(load_recipe(folder / file_name, overrides), web.base_url)
+                reports.append(harvest(recipe, archive=archive))
+        return DemoRun(site.base_url, archive, tuple(reports), web.base_url)
+
+
+def with_demo_archive(recipe: Recipe, base_url: str) -> Recipe:
+    """``recipe`` with its [captures] templates pointing at the demo web archive ``base_url``
+    instead of the port the demo recipes name (the archive may have had to take another)."""
+    captures = recipe.captures
+    if captures is None:
+        return recipe
+
+    def moved(template: str | None) -> str | None:
+        return template.replace(DEMO_ARCHIVE, base_url, 1) if template else template
+
+    archive = dataclasses.replace(
+        captures, timemap=moved(captures.timemap), timegate=moved(captures.timegate)
+    )
+    return dataclasses.replace(recipe, captures=archive)
 
 
 def write_demo_site(directory: Path) -> list[Path]:

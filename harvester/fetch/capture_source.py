@@ -81,8 +81,12 @@ class CaptureSource:
         for memento in choice.ranked[: self.max_tries]:
             try:
                 capture = await self._fetch_memento(request.url, memento)
-            except (HttpStatusError, FetchLimitError) as error:
-                skipped.append(f"{rfc3339(memento.datetime)} ({error.message})")
+            except HttpStatusError as error:
+                what = "an archived redirect" if 300 <= error.status < 400 else "an archived error"
+                skipped.append(f"{_when(memento)} ({what}, HTTP {error.status})")
+                continue
+            except FetchLimitError as error:
+                skipped.append(f"{_when(memento)} ({error.message})")
                 continue
             if skipped:
                 note = f"skipped {len(skipped)} nearer capture(s): {'; '.join(skipped)}"
@@ -213,7 +217,7 @@ class CaptureSource:
         return self.archive.original.apply(memento_uri) or memento_uri
 
     def _none_message(self, choice: CaptureChoice) -> str:
-        when = rfc3339(choice.target)
+        when = rfc3339(choice.target, timespec="seconds")
         if not choice.timemap.mementos:
             return "the web archive holds no capture of this page"
         window = self.archive.within
@@ -226,14 +230,22 @@ class CaptureSource:
         first, last = choice.timemap.mementos[0], choice.timemap.mementos[-1]
         return (
             f"no capture {scope}: the web archive holds {len(choice.timemap.mementos)},"
-            f" from {rfc3339(min(first.datetime, last.datetime))}"
-            f" to {rfc3339(max(first.datetime, last.datetime))}"
+            f" from {_when(min(first, last, key=_datetime))}"
+            f" to {_when(max(first, last, key=_datetime))}"
         )
 
     def _none_hint(self) -> str:
         if self.archive.within is not None or self.archive.rule == "before":
             return "widen [captures] within, change rule, or move capture_near"
         return "the archive never captured it; check the URL, or leave the season out"
+
+
+def _datetime(memento: Memento) -> datetime:
+    return memento.datetime
+
+
+def _when(memento: Memento) -> str:
+    return rfc3339(memento.datetime, timespec="seconds")
 
 
 def _intermediate(answer: Answer) -> bool:

@@ -119,6 +119,10 @@ class PacedSender:
                     await self._shared.finish(host, turn)
         if self.on_answer is not None:
             self.on_answer(answer)
+        if header(answer.headers, "memento-datetime") is not None:
+            # A web archive replaying an archived answer with its own status (RFC 7089
+            # §4.5.5): a 503 recorded years ago says nothing about the archive today.
+            return answer
         if answer.status in (429, 503):
             retry_after = self._retry_after(url, answer)
             why = f" after HTTP {answer.status}"

@@ -47,6 +47,10 @@ def capture_rows(choice: CaptureChoice) -> list[dict[str, object]]:
     """The captures in the archive's order: ``datetime`` (RFC 3339, UTC), ``uri``, ``chosen``."""
     chosen = choice.chosen
     return [
-        {"datetime": rfc3339(memento.datetime), "uri": memento.uri, "chosen": memento == chosen}
+        {
+            "datetime": rfc3339(memento.datetime, timespec="seconds"),
+            "uri": memento.uri,
+            "chosen": memento == chosen,
+        }
         for memento in choice.timemap.mementos
     ]

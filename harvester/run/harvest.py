@@ -343,7 +343,7 @@ async def _harvest_capture(
             version,
             message,
             origin=said.origin if said else "",
-            memento_datetime=rfc3339(said.memento_datetime)
+            memento_datetime=rfc3339(said.memento_datetime, timespec="seconds")
             if said and said.memento_datetime
             else None,
             notes=said.notes if said else (),
