@@ -51,7 +51,9 @@ def load_error(path: Path) -> RecipeError:
 
 
 @pytest.fixture(autouse=True)
-def no_user_config(tmp_path_factory: pytest.TempPathFactory, monkeypatch: pytest.MonkeyPatch):
+def no_user_config(
+    tmp_path_factory: pytest.TempPathFactory, monkeypatch: pytest.MonkeyPatch
+) -> Path:
     """No user config unless a test writes one (HARVESTER_CONFIG points at a missing file)."""
     folder = tmp_path_factory.mktemp("config")
     monkeypatch.setenv("HARVESTER_CONFIG", str(folder / "config.toml"))
