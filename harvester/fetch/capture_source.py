@@ -18,14 +18,16 @@ URI fetched, ``memento_datetime`` its Memento-Datetime, ``origin`` "web-archive"
 from __future__ import annotations
 
 from collections import deque
+from collections.abc import Mapping
 from dataclasses import dataclass, replace
 from datetime import UTC, datetime
+from typing import Literal, Protocol
 from urllib.parse import urljoin, urlsplit
 
 from harvester.errors import FetchError, FetchLimitError, HttpStatusError
 from harvester.fetch.capture import Capture, header
 from harvester.fetch.capture_choice import describe_window, rank_mementos
-from harvester.fetch.client import Fetcher
+from harvester.fetch.client import RedirectRule
 from harvester.fetch.linkformat import parse_links
 from harvester.fetch.source import PageRequest
 from harvester.fetch.timemap import (
@@ -40,11 +42,32 @@ from harvester.fetch.transfer import Answer
 from harvester.fetch.web_archive import WebArchive, rewriting_signs
 from harvester.timestamps import rfc3339
 
-__all__ = ["LINK_FORMAT", "CaptureChoice", "CaptureSource"]
+__all__ = ["LINK_FORMAT", "ArchiveClient", "CaptureChoice", "CaptureSource"]
 
 LINK_FORMAT = "application/link-format"
 MAX_TIMEMAP_PAGES = 50  # TimeMap documents read for one page (common practice, no source)
 MAX_TRIES = 5  # mementos fetched for one page before giving up: the archive is a shared service
+
+
+class ArchiveClient(Protocol):
+    """What a capture source asks of whoever talks to the archive: the live fetcher, or a
+    store of recorded exchanges (a cassette, the snapshot archive) replaying them."""
+
+    async def fetch(
+        self,
+        url: str,
+        *,
+        immutable: bool = False,
+        headers: Mapping[str, str] | None = None,
+        content_types: tuple[str, ...] | Literal["any"] | None = None,
+        follow: RedirectRule | None = None,
+    ) -> Capture:
+        """A usable answer for ``url``, redirects followed as ``follow`` says; else FetchError."""
+        ...
+
+    async def exchange(self, url: str, *, headers: Mapping[str, str] | None = None) -> Capture:
+        """The answer for ``url`` whatever its status, no redirect followed."""
+        ...
 
 
 @dataclass(frozen=True)
@@ -65,7 +88,9 @@ class CaptureChoice:
 class CaptureSource:
     """A ``PageSource`` of web-archive captures, fetched by ``fetcher`` from ``archive``."""
 
-    def __init__(self, fetcher: Fetcher, archive: WebArchive, *, max_tries: int = MAX_TRIES):
+    def __init__(
+        self, fetcher: ArchiveClient, archive: WebArchive, *, max_tries: int = MAX_TRIES
+    ) -> None:
         self.fetcher = fetcher
         self.archive = archive
         self.max_tries = max_tries
@@ -201,10 +226,12 @@ class CaptureSource:
                 f"looks rewritten by the web archive: {signs} link(s) point into it"
                 f"{' ' + asked if asked else ''}{fix}"
             )
+        # A replayed exchange keeps the origin of its store (cassette, snapshot archive).
+        origin = "web-archive" if fetched.origin in ("live", "cache") else fetched.origin
         return replace(
             fetched,
             url=url,
-            origin="web-archive",
+            origin=origin,
             memento_datetime=stamp or memento.datetime,
             memento_uri=memento.uri,
             notes=tuple(notes),

@@ -10,11 +10,11 @@ says nothing about whether the page still exists.
 from __future__ import annotations
 
 from dataclasses import replace
+from typing import Protocol, runtime_checkable
 
 from harvester.errors import HttpStatusError
 from harvester.fetch.capture import Capture
-from harvester.fetch.capture_source import CaptureSource
-from harvester.fetch.client import Fetcher
+from harvester.fetch.capture_source import ArchiveClient, CaptureSource
 from harvester.fetch.source import PageRequest, PageSource
 from harvester.fetch.web_archive import WebArchive
 
@@ -46,8 +46,14 @@ class PastSource:
             return replace(capture, notes=(said, *capture.notes))
 
 
-def past_source(fetcher: Fetcher, archive: WebArchive | None) -> PageSource:
-    """The live ``fetcher`` alone, or with captures from ``archive`` fetched through it."""
-    if archive is None:
-        return fetcher
-    return PastSource(fetcher, CaptureSource(fetcher, archive))
+def past_source(source: PageSource, archive: WebArchive | None) -> PageSource:
+    """``source`` alone, or with captures from ``archive`` when ``source`` can talk to an
+    archive (the live fetcher; a cassette or the snapshot archive replaying one)."""
+    if archive is None or not isinstance(source, _CanAskArchives):
+        return source
+    return PastSource(source, CaptureSource(source, archive))
+
+
+@runtime_checkable
+class _CanAskArchives(ArchiveClient, PageSource, Protocol):
+    """A page source that is an archive client as well."""

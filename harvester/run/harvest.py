@@ -173,9 +173,8 @@ class _Run:
                 writer = stack.enter_context(ArchiveWriter(self.archive))
                 recorder = stack.enter_context(self._recorder())
                 if not isinstance(source, PageSource):
-                    fetcher = await stack.enter_async_context(source(recorder.keep))
-                    source = past_source(fetcher, self.recipe.captures)
-                source = recorder.wrap(source)
+                    source = await stack.enter_async_context(source(recorder.keep))
+                source = recorder.wrap(past_source(source, self.recipe.captures))
                 for page in pages:
                     outcomes = await _harvest_page(self.recipe, page, source, writer, self.report)
                     self.report.pages_done += 1

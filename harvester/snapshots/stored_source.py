@@ -10,13 +10,17 @@ from __future__ import annotations
 
 import asyncio
 import hashlib
+from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Literal
 from urllib.parse import urljoin
 
 from harvester.errors import FetchError, FetchLimitError, HttpStatusError, StoreError
 from harvester.fetch.capture import Capture, Origin, header
+from harvester.fetch.client import RedirectRule
 from harvester.fetch.source import PageRequest
+from harvester.fetch.transfer import Answer
 from harvester.snapshots.entry import WARC_DIR, IndexEntry
 from harvester.snapshots.index import SnapshotIndex
 from harvester.snapshots.reader import RecordContent, read_record
@@ -83,14 +87,42 @@ class StoredSource:
         """The stored capture of ``request.url``; a FetchError when there is none to serve."""
         return await asyncio.to_thread(self.capture_url, request.url)
 
-    def capture_url(self, url: str) -> Capture:
-        """``capture`` without the event loop: the same answer, read in the calling thread."""
+    async def fetch(
+        self,
+        url: str,
+        *,
+        immutable: bool = False,
+        headers: Mapping[str, str] | None = None,
+        content_types: tuple[str, ...] | Literal["any"] | None = None,
+        follow: RedirectRule | None = None,
+    ) -> Capture:
+        """The stored answer for ``url`` as the fetcher would give it (``ArchiveClient``):
+        stored redirects followed when ``follow`` says so; the other settings shaped the
+        requests when they were recorded, so they change nothing here."""
+        return await asyncio.to_thread(self.capture_url, url, follow)
+
+    async def exchange(self, url: str, *, headers: Mapping[str, str] | None = None) -> Capture:
+        """The latest stored answer for ``url``, whatever its status, no redirect followed."""
+        return await asyncio.to_thread(self._exchange, url)
+
+    def _exchange(self, url: str) -> Capture:
+        entry = self._latest(url, url)
+        answer = self._answer(entry, url)
+        return self._capture(url, url, answer, entry, ())
+
+    def capture_url(self, url: str, follow: RedirectRule | None = None) -> Capture:
+        """``capture`` without the event loop: the same answer, read in the calling thread.
+
+        A stored redirect is followed unless ``follow`` (given the redirect as an answer)
+        says not to; then it is an HttpStatusError, as from the live fetcher."""
         current, hops = url, []
         while True:
             entry = self._latest(current, url)
             answer = self._answer(entry, url)
             location = header(answer.headers, "location")
             if not (300 <= answer.status < 400 and location):
+                break
+            if follow is not None and not follow(_as_answer(current, answer, entry)):
                 break
             hops.append(current)
             target = urljoin(current, location.strip())
@@ -114,15 +146,20 @@ class StoredSource:
                 status=answer.status,
                 hint=f"{self.label} keeps this answer; the page was missing or refused then",
             )
+        return self._capture(url, current, answer, entry, tuple(hops))
+
+    def _capture(
+        self, url: str, final: str, answer: _Answer, entry: IndexEntry, hops: tuple[str, ...]
+    ) -> Capture:
         return Capture(
             url=url,
-            final_url=current,
+            final_url=final,
             status=answer.status,
             headers=answer.headers,
             body=answer.payload,
             fetched_at=entry.date,
             origin=self.origin,
-            redirects=tuple(hops),
+            redirects=hops,
             memento_datetime=entry.memento_datetime,
             record_id=answer.payload_entry.record_id,
         )
@@ -210,3 +247,8 @@ class StoredSource:
                 "the WARC file was altered: restore it from a copy",
             )
         return content
+
+
+def _as_answer(url: str, answer: _Answer, entry: IndexEntry) -> Answer:
+    """A stored exchange as the fetcher's redirect rule sees an answer."""
+    return Answer(url, answer.status, answer.headers, answer.payload, entry.date, entry.date)
