@@ -26,7 +26,8 @@ __all__ = ["CAUTION", "app", "main"]
 CAUTION = (
     "Harvesting can breach a site's terms of use, copyright or database rights, and privacy law. "
     "robots.txt is not permission: you defer to the site's terms and to your local law. "
-    "harvester identifies itself honestly and never helps evade blocks."
+    "harvester identifies itself honestly and never helps evade blocks. Web archives are shared "
+    "public services with terms of use of their own: be gentle with them."
 )
 
 EXIT_CODES = """Exit status: 0 success; 1 error, or (harvest) a table failed or was refused; 2 bad

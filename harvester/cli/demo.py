@@ -32,9 +32,14 @@ def demo_command(
         typer.Option("--write-site", metavar="DIR", help="Write the demo pages to DIR and stop."),
     ] = None,
     serve: Annotated[
-        bool, typer.Option("--serve", help="Serve the demo site on 127.0.0.1 until Ctrl-C.")
+        bool,
+        typer.Option(
+            "--serve", help="Serve the demo site and its web archive on 127.0.0.1 until Ctrl-C."
+        ),
     ] = False,
-    port: Annotated[int, typer.Option("--port", help="Port for --serve.")] = 8650,
+    port: Annotated[
+        int, typer.Option("--port", help="Port for --serve (the web archive takes the next).")
+    ] = 8650,
     crawl_delay: Annotated[
         float, typer.Option("--crawl-delay", help="Crawl-delay the served robots.txt asks for.")
     ] = 0.5,
@@ -90,15 +95,27 @@ def _serve_demo(port: int, crawl_delay: float) -> None:
     import time
 
     from harvester.demo.server import DemoServer
+    from harvester.demo.tour import DEMO_ARCHIVE_PORT
+    from harvester.demo.web_archive import DemoWebArchive
 
+    # The archive takes the port after the site's (8651 beside 8650, as the demo recipes
+    # name it); with --port 0 both take free ports.
+    archive_port = DEMO_ARCHIVE_PORT if port == 8650 else (port + 1 if port else 0)
     try:
         site = DemoServer(port=port, crawl_delay=crawl_delay).start()
     except HarvesterError as error:  # an option the server refuses: its message names it
         fail(error)
     except OSError as error:
         usage(f"cannot serve on 127.0.0.1:{port} ({error.strerror}) — pick another --port")
+    try:
+        web = DemoWebArchive(site=site.base_url, port=archive_port, crawl_delay=crawl_delay)
+        web.start()
+    except OSError as error:
+        site.stop()
+        usage(f"cannot serve on 127.0.0.1:{archive_port} ({error.strerror}) — pick another --port")
     typer.echo(
-        f"demo site on {site.base_url} (robots.txt Crawl-delay {crawl_delay:g} s); Ctrl-C stops"
+        f"demo site on {site.base_url} (robots.txt Crawl-delay {crawl_delay:g} s), its web"
+        f" archive on {web.base_url}; Ctrl-C stops"
     )
     try:
         while True:
@@ -106,4 +123,5 @@ def _serve_demo(port: int, crawl_delay: float) -> None:
     except KeyboardInterrupt:
         pass
     finally:
+        web.stop()
         site.stop()

@@ -45,6 +45,7 @@ from warcio.warcwriter import WARCWriter
 from harvester._version import __version__
 from harvester.fetch.capture import header
 from harvester.fetch.httpdate import parse_http_date
+from harvester.fetch.linkformat import parse_links
 from harvester.fetch.transfer import Answer
 from harvester.snapshots import liveness
 from harvester.snapshots.entry import NOT_MODIFIED_PROFILE, SAME_PAYLOAD_PROFILE, IndexEntry
@@ -179,6 +180,9 @@ class WarcSnapshotWriter:
         entry = _placed(entry, self._name, start, self._out.tell() - start)
         if with_request:
             self._write(self._request(answer, date, request_id, response_id))
+        about = _memento_fields(answer)
+        if about:
+            self._write(self._memento(answer, date, response_id, about))
         self._out.flush()  # in the operating system's hands: a killed process keeps it
         self._entries.append(entry)
         self.known.add(entry)
@@ -288,6 +292,21 @@ class WarcSnapshotWriter:
             answer.url, "request", http_headers=http, warc_headers_dict=headers
         )
 
+    def _memento(self, answer: Answer, date: str, response_id: str, about: str) -> Any:
+        """A metadata record naming a memento's original URL and datetime (WARC 1.1 §6.6,
+        ``WARC-Refers-To`` §5.11), so that readers of the WARC file need not parse Link."""
+        headers = {
+            "WARC-Record-ID": _record_id(),
+            "WARC-Date": date,
+            "WARC-Refers-To": response_id,
+            "WARC-Concurrent-To": response_id,
+        }
+        body = about.encode("utf-8")
+        return self._writer.create_warc_record(
+            answer.url, "metadata", payload=io.BytesIO(body), length=len(body),
+            warc_content_type="application/warc-fields", warc_headers_dict=headers,
+        )  # fmt: skip
+
     # -- files -------------------------------------------------------------------------
 
     def _write(self, record: Any) -> int:
@@ -347,6 +366,20 @@ def _revisit(entry: IndexEntry, profile: str, digest: str, original: IndexEntry)
 
 def _placed(entry: IndexEntry, file: str, offset: int, length: int) -> IndexEntry:
     return replace(entry, file=file, offset=offset, length=length)
+
+
+def _memento_fields(answer: Answer) -> str:
+    """``original`` and ``memento-datetime`` as warc-fields for an answer a web archive gave
+    (RFC 7089 §2.1.1 Memento-Datetime, §2.2.1 the ``original`` link); '' for any other."""
+    memento = header(answer.headers, "memento-datetime")
+    if memento is None:
+        return ""
+    links = parse_links(header(answer.headers, "link") or "", base=answer.url).links
+    original = next((link.target for link in links if "original" in link.rels), None)
+    fields = [f"memento-datetime: {' '.join(memento.split())}"]
+    if original is not None:
+        fields.insert(0, f"original: {original}")
+    return "".join(f"{field}\r\n" for field in fields)
 
 
 def _status_line(status: int) -> str:

@@ -180,3 +180,38 @@ def test_every_status_is_kept(tmp_path: Path, status: int) -> None:
     with file.open("rb") as stream:
         response = next(r for r in ArchiveIterator(stream) if r.rec_type == "response")
         assert response.http_headers.get_statuscode() == str(status)
+
+
+def test_a_memento_gets_a_metadata_record_naming_its_original(tmp_path: Path) -> None:
+    # REFERENCES.md §5.5 (practice for a Memento fetch): the response at the URI-M, and a
+    # metadata record (WARC 1.1 §6.6) referring to it (§5.11) with original and
+    # memento-datetime as application/warc-fields (§4, §8).
+    link = (
+        '<http://127.0.0.1:8650/seasons/2019/players.html>; rel="original",'
+        ' <http://127.0.0.1:8651/timemap/http://127.0.0.1:8650/seasons/2019/players.html>'
+        '; rel="timemap"; type="application/link-format"'
+    )
+    memento = answer(
+        "/web/20190703083000raw/x",
+        b"<table></table>",
+        ("Memento-Datetime", "Wed, 03 Jul 2019 08:30:00 GMT"),
+        ("Link", link),
+    )
+    with writer(tmp_path) as out:
+        entry = out.write(memento)
+        out.write(answer("/live.html", b"<p>live</p>"))
+    (file,) = tmp_path.iterdir()
+    kept = records(file)
+    assert [kind for kind, _, _ in kept] == [
+        "warcinfo", "response", "request", "metadata", "response", "request"
+    ]  # fmt: skip  # a live answer gets no metadata record
+    _, about, fields = kept[3]
+    assert about["WARC-Refers-To"] == entry.record_id == kept[1][1]["WARC-Record-ID"]
+    assert about["Content-Type"] == "application/warc-fields"
+    assert about["WARC-Target-URI"] == memento.url
+    assert fields.decode() == (
+        "original: http://127.0.0.1:8650/seasons/2019/players.html\r\n"
+        "memento-datetime: Wed, 03 Jul 2019 08:30:00 GMT\r\n"
+    )
+    assert entry.origin == "web-archive"
+    warcio_check(file)
