@@ -239,6 +239,12 @@ class Fetcher:
         answer is itself the point, such as a TimeGate's 302 (RFC 7089 §4.1.1).
         """
         check_target(url, self.limits.schemes)
+        if self.mode == "offline":
+            raise NotCachedError(
+                "an answer that is never cached, and --offline forbids fetching it",
+                url=url,
+                hint="run without --offline, or use a TimeMap ([captures] timemap) instead",
+            )
         answer, hops = await self._send(url, _Hops(dict(headers or {}), {}, None, _never))
         return self._capture(url, answer, hops)
 
