@@ -30,7 +30,9 @@ from harvester.fetch.cache_freshness import (
 )
 from harvester.fetch.cache_validation import apply_304, conditional_headers, select_for_304
 from harvester.fetch.cache_vary import variant_identity, vary_matches
+from harvester.fetch.capture import Capture
 from harvester.fetch.disk_store import open_store
+from harvester.fetch.transfer import Answer
 
 _log = logging.getLogger("harvester.fetch")
 
@@ -39,11 +41,13 @@ __all__ = [
     "CacheLookup",
     "HttpCache",
     "StoredResponse",
+    "cached_capture",
     "conditional_headers",
     "current_age",
     "forbids_stale",
     "freshness_lifetime",
     "is_storable",
+    "stored_answer",
 ]
 
 
@@ -180,3 +184,40 @@ class HttpCache:
     def close(self) -> None:
         """Close the underlying diskcache files."""
         self._disk.close()
+
+
+def cached_capture(
+    url: str, stored: StoredResponse, *, revalidated: bool = False, hops: tuple[str, ...] = ()
+) -> Capture:
+    """A stored response served as a capture of ``url`` (origin "cache")."""
+    return Capture(
+        url=url,
+        final_url=stored.final_url or stored.url,
+        status=stored.status,
+        headers=stored.headers,
+        body=stored.body,
+        fetched_at=stored.request_time,
+        origin="cache",
+        redirects=hops,
+        revalidated=revalidated,
+    )
+
+
+def stored_answer(
+    answer: Answer,
+    request_headers: Mapping[str, str],
+    immutable: bool,
+    key: str | None = None,
+) -> StoredResponse:
+    """An answer as the cache keeps it, under ``key`` (the URL asked for) or its own URL."""
+    return StoredResponse(
+        url=key or answer.url,
+        status=answer.status,
+        headers=answer.headers,
+        body=answer.body,
+        request_headers=tuple(request_headers.items()),
+        request_time=answer.request_time,
+        response_time=answer.response_time,
+        immutable=immutable,
+        final_url=answer.url,
+    )

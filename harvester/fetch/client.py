@@ -30,9 +30,10 @@ from harvester.errors import (
 from harvester.fetch.cache import (
     CacheLookup,
     HttpCache,
-    StoredResponse,
+    cached_capture,
     conditional_headers,
     forbids_stale,
+    stored_answer,
 )
 from harvester.fetch.cache_entry import cache_directives
 from harvester.fetch.capture import Capture, Origin, header
@@ -206,7 +207,7 @@ class Fetcher:
         # --refresh revalidates every copy, immutable ones too (docs/fetching.md).
         reusable = lookup.state == "fresh" or (stored is not None and stored.immutable)
         if stored is not None and reusable and self.mode == "normal":
-            return self._from_cache(url, stored)
+            return cached_capture(url, stored)
         conditional: dict[str, str] = {}
         if lookup.response is not None:
             # Stale entries come with their validators; --refresh revalidates fresh ones too.
@@ -217,10 +218,10 @@ class Fetcher:
         )
         if answer.status == 304 and lookup.response is not None and self.cache is not None:
             refreshed = self.cache.freshen(
-                "GET", url, request_headers, self._stored(answer, request_headers, immutable)
+                "GET", url, request_headers, stored_answer(answer, request_headers, immutable)
             )
             stored = refreshed or lookup.response
-            return self._from_cache(url, stored, revalidated=True, hops=hops)
+            return cached_capture(url, stored, revalidated=True, hops=hops)
         if not 200 <= answer.status < 300:
             raise HttpStatusError(
                 f"HTTP {answer.status}",
@@ -229,7 +230,7 @@ class Fetcher:
                 hint="the page is missing or refused; check the URL and the season",
             )
         if self.cache is not None:
-            self.cache.store("GET", self._stored(answer, request_headers, immutable, key=url))
+            self.cache.store("GET", stored_answer(answer, request_headers, immutable, key=url))
         return self._capture(url, answer, hops)
 
     async def exchange(self, url: str, *, headers: Mapping[str, str] | None = None) -> Capture:
@@ -301,46 +302,7 @@ class Fetcher:
                 url=url,
                 hint="run once without --offline to revalidate it",
             )
-        return self._from_cache(url, stored)
-
-    def _from_cache(
-        self,
-        url: str,
-        stored: StoredResponse,
-        *,
-        revalidated: bool = False,
-        hops: tuple[str, ...] = (),
-    ) -> Capture:
-        return Capture(
-            url=url,
-            final_url=stored.final_url or stored.url,
-            status=stored.status,
-            headers=stored.headers,
-            body=stored.body,
-            fetched_at=stored.request_time,
-            origin="cache",
-            redirects=hops,
-            revalidated=revalidated,
-        )
-
-    def _stored(
-        self,
-        answer: Answer,
-        request_headers: dict[str, str],
-        immutable: bool,
-        key: str | None = None,
-    ) -> StoredResponse:
-        return StoredResponse(
-            url=key or answer.url,
-            status=answer.status,
-            headers=answer.headers,
-            body=answer.body,
-            request_headers=tuple(request_headers.items()),
-            request_time=answer.request_time,
-            response_time=answer.response_time,
-            immutable=immutable,
-            final_url=answer.url,
-        )
+        return cached_capture(url, stored)
 
     def _apply_crawl_delay(self, url: str, rules: RobotsTxt) -> None:
         host = host_key(url)
