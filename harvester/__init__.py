@@ -15,14 +15,16 @@ from harvester.errors import (
 from harvester.extract.rules import ColumnRule, RowDrop, TableRule
 from harvester.extract.table import ExtractedTable, extract_grid, extract_table, read_page
 from harvester.fetch.capture import Capture
+from harvester.fetch.capture_source import CaptureChoice, CaptureSource
 from harvester.fetch.client import Fetcher
 from harvester.fetch.identity import Identity
 from harvester.fetch.limits import FetchLimits
 from harvester.fetch.robots import RobotsTxt
 from harvester.fetch.source import PageRequest, PageSource
 from harvester.fetch.sync import SyncFetcher
+from harvester.fetch.web_archive import OriginalRewrite, WebArchive
 from harvester.recipe import PlannedPage, Recipe, RecipeTable, load_recipe
-from harvester.run import Outcome, RunReport, harvest
+from harvester.run import Outcome, RunReport, find_captures, harvest, reparse
 from harvester.store.archive import Archive, VersionInfo
 from harvester.store.partition_diff import PartitionDiff, diff_partition
 from harvester.store.writer import ArchiveWriter, CommitResult
@@ -31,6 +33,8 @@ __all__ = [
     "Archive",
     "ArchiveWriter",
     "Capture",
+    "CaptureChoice",
+    "CaptureSource",
     "ColumnRule",
     "CommitResult",
     "ExtractError",
@@ -40,6 +44,7 @@ __all__ = [
     "Fetcher",
     "HarvesterError",
     "Identity",
+    "OriginalRewrite",
     "Outcome",
     "PageRequest",
     "PageSource",
@@ -57,11 +62,14 @@ __all__ = [
     "TableRule",
     "ValueParseError",
     "VersionInfo",
+    "WebArchive",
     "__version__",
     "diff_partition",
     "extract_grid",
     "extract_table",
+    "find_captures",
     "harvest",
     "load_recipe",
     "read_page",
+    "reparse",
 ]

@@ -6,6 +6,7 @@ fills the provenance columns of each row; ``report`` keeps what happened to each
 
 from __future__ import annotations
 
+from harvester.run.captures import find_captures
 from harvester.run.harvest import harvest, live_source, page_request
 from harvester.run.reparse import reparse
 from harvester.run.report import Outcome, RunReport, summary
@@ -13,6 +14,7 @@ from harvester.run.report import Outcome, RunReport, summary
 __all__ = [
     "Outcome",
     "RunReport",
+    "find_captures",
     "harvest",
     "live_source",
     "page_request",
