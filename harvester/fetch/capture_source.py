@@ -191,8 +191,9 @@ class CaptureSource:
         # what it answers is kept, so that it is not asked for twice.
         wanted = self._wanted(uri)
         neighbours = await self.fetcher.exchange(wanted)
-        if 200 <= neighbours.status < 300:
-            self._prefetched[wanted] = neighbours
+        archived = neighbours.header("memento-datetime") is not None
+        if 200 <= neighbours.status < 300 or archived:
+            self._prefetched[wanted] = neighbours  # an archived 3xx-5xx is its answer too
         listed = parse_links(neighbours.header("link") or "", base=wanted).links
         stamp = stamp or parse_memento_datetime(neighbours.header("memento-datetime") or "")
         found: dict[str, datetime] = {}
@@ -215,6 +216,8 @@ class CaptureSource:
         fetched = self._prefetched.pop(wanted, None) or await self.fetcher.fetch(
             wanted, immutable=True, follow=_intermediate
         )
+        if not 200 <= fetched.status < 300:
+            raise HttpStatusError(f"HTTP {fetched.status}", url=wanted, status=fetched.status)
         stamp = parse_memento_datetime(fetched.header("memento-datetime") or "")
         if stamp is None:
             notes.append("the archive sent no Memento-Datetime; the TimeMap's datetime is kept")
