@@ -234,6 +234,33 @@ def test_within_leaves_out_captures_outside_the_window(
     assert [m.datetime for m in chosen.ranked] == [datetime(2020, 6, 28, 14, 5, 9, tzinfo=UTC)]
 
 
+@pytest.mark.parametrize(
+    ("target", "expected"),
+    [
+        (datetime(2020, 1, 1, tzinfo=UTC), datetime(2020, 3, 15, 10, 20, 0, tzinfo=UTC)),
+        (datetime(2021, 1, 1, tzinfo=UTC), datetime(2020, 11, 20, 16, 45, 0, tzinfo=UTC)),
+    ],
+)
+def test_closest_outside_the_span_takes_the_first_or_the_last(
+    demo_archive: DemoWebArchive, tmp_path: Path, target: datetime, expected: datetime
+) -> None:
+    # REFERENCES §4.5 step 2 (project rule), mirroring RFC 7089 §4.5.3 for TimeGates.
+    chosen = choose(archive_of(demo_archive), demo_archive.uri_r(2020, "players"), target, tmp_path)
+    assert chosen.chosen is not None and chosen.chosen.datetime == expected
+
+
+def test_before_with_nothing_before_the_target_is_a_fetch_error(
+    demo_archive: DemoWebArchive, tmp_path: Path
+) -> None:
+    uri_r = demo_archive.uri_r(2020, "players")
+    new_year = datetime(2020, 1, 1, tzinfo=UTC)  # before the first capture, 15 March
+    with pytest.raises(FetchError) as raised:
+        capture(archive_of(demo_archive, rule="before"), uri_r, new_year, tmp_path)
+    text = str(raised.value)
+    assert "at or before 2020-01-01T00:00:00Z" in text and "holds 4" in text
+    assert [r.bare_path for r in demo_archive.log] == ["/robots.txt", f"/timemap/{uri_r}"]
+
+
 def test_with_nothing_in_the_window_the_error_names_the_window(
     demo_archive: DemoWebArchive, tmp_path: Path
 ) -> None:
@@ -353,18 +380,32 @@ def test_a_timegate_only_archive_negotiates_with_an_imf_fixdate(
     assert len(demo_archive.requests_for(raw_path(uri_r, june_28))) == 1
 
 
-def test_a_timegate_only_archive_skips_an_archived_error_asking_for_it_once(
-    demo_archive: DemoWebArchive, tmp_path: Path
+@pytest.mark.parametrize(
+    ("season", "status", "kind"),
+    [(2019, 404, "an archived error"), (2015, 503, "an archived error"),
+     (2017, 302, "an archived redirect")],
+)  # fmt: skip
+def test_a_timegate_only_archive_skips_an_archived_answer_asking_for_it_once(
+    demo_site: DemoServer,
+    demo_archive: DemoWebArchive,
+    tmp_path: Path,
+    season: int,
+    status: int,
+    kind: str,
 ) -> None:
-    uri_r = demo_archive.uri_r(2019, "players")
+    uri_r = demo_archive.uri_r(season, "players")
     gate_only = archive_of(demo_archive, timemap=None, timegate=demo_archive.url("/timegate/{url}"))
-    got = capture(gate_only, uri_r, near(2019), tmp_path)
-    june_28, july_3 = schedule(2019)[1], schedule(2019)[2]
+    got = capture(gate_only, uri_r, near(season), tmp_path)
+    june_28, july_3 = schedule(season)[1], schedule(season)[2]
     assert got.memento_datetime == july_3
-    # RFC 7089 §2.1.1, §4.5.5: the archived 404 carries Memento-Datetime and will not change;
-    # capture_source.py keeps what negotiation fetched "so that it is not asked for twice".
+    (note,) = [n for n in got.notes if "skipped" in n]
+    assert f"{kind}, HTTP {status}" in note
+    assert demo_site.log == []  # RFC 7089 §4.5.4: an archived 302 to the live site is not followed
+    # RFC 7089 §2.1.1, §4.5.4, §4.5.5: the archived answer carries Memento-Datetime and will not
+    # change; capture_source.py keeps what negotiation fetched "so that it is not asked for
+    # twice" — yet only a 2xx is kept, so the archived 3xx/4xx/5xx is fetched a second time.
     asked = demo_archive.requests_for(raw_path(uri_r, june_28))
-    assert [record.status for record in asked] == [404]
+    assert [record.status for record in asked] == [status]
 
 
 # -- nothing held --------------------------------------------------------------------------------
