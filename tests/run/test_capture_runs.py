@@ -238,6 +238,22 @@ def test_a_table_the_live_page_lacks_is_taken_from_the_capture(
     assert len(redesigned_site.requests_for("/seasons/2020/players.html")) == 1
 
 
+def test_a_second_run_takes_the_memento_from_the_cache(
+    demo_site: DemoServer, demo_archive: DemoWebArchive, tmp_path: Path
+) -> None:
+    contracts = recipe("league-contracts", demo_site.base_url, demo_archive, 2018)
+    harvest(contracts, archive=str(tmp_path))
+    (again,) = harvest(contracts, archive=str(tmp_path)).outcomes
+    assert again.status == "unchanged"
+    # Still a capture, and said so, although its bytes came from the HTTP cache this time.
+    assert (again.origin, again.memento_datetime) == ("web-archive", "2018-06-28T14:05:09Z")
+    uri_r = demo_archive.uri_r(2018, "contracts")
+    june_28 = demo_archive.captures(uri_r)[1].datetime
+    # RFC 7089 §2.1.1: a memento "will no longer change"; REFERENCES §4.6: cached by URI-M.
+    assert len(demo_archive.requests_for(f"/web/{stamp(june_28)}raw/{uri_r}")) == 1
+    assert_polite(demo_site, demo_archive)
+
+
 # -- windows-1252 captures ----------------------------------------------------------------------
 
 
