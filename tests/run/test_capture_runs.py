@@ -32,8 +32,9 @@ from harvester.demo.server import DemoServer
 from harvester.demo.tour import with_demo_archive
 from harvester.demo.web_archive import DemoWebArchive
 from harvester.recipe import Recipe, load_recipe
-from harvester.run import Outcome, RunReport, harvest
+from harvester.run import Outcome, RunReport, harvest, reparse
 from harvester.snapshots.index import SnapshotIndex
+from harvester.snapshots.stored_source import StoredSource
 from tests.demo.polite import Polite
 from tests.fetch.misbehaving import ScriptedSite
 from tests.warc_check import warcio_check
@@ -412,3 +413,48 @@ def test_the_snapshot_archive_keeps_the_memento_exchange(
                     found.append((record_id, said, record.content_stream().read()))
     # RFC 7089 §2.1.1 IMF-fixdate; 28 June 2022 was a Tuesday (checked with GNU date).
     assert found == [(kept[0].record_id, "Tue, 28 Jun 2022 14:05:09 GMT", body)]
+
+
+# -- replaying a run that took a capture ---------------------------------------------------------
+
+CONTRACT_COLUMNS = "player, club, salary, years, expires"  # recipes/league-contracts.toml
+
+
+def test_a_cassette_of_a_capture_run_replays_the_capture(
+    demo_site: DemoServer, demo_archive: DemoWebArchive, tmp_path: Path
+) -> None:
+    contracts = recipe("league-contracts", demo_site.base_url, demo_archive, 2018)
+    cassette = tmp_path / "run.warc.gz"
+    recorded = harvest(contracts, archive=str(tmp_path / "recorded"), record=cassette)
+    assert [o.status for o in recorded.outcomes] == ["new"]
+    source = StoredSource.from_cassette(cassette)
+    (replayed,) = harvest(contracts, archive=str(tmp_path / "replayed"), source=source).outcomes
+    # docs/snapshots.md: "Replaying a recorded run gives tables identical in their data
+    # columns" — the recorded run's page came from the memento, so the replay must too.
+    assert replayed.status == "new", replayed.line()
+    before = part_file(tmp_path / "recorded", "league-contracts", "contracts")
+    after = part_file(tmp_path / "replayed", "league-contracts", "contracts")
+    differ = duckdb.execute(
+        f"(SELECT {CONTRACT_COLUMNS} FROM read_parquet(?) EXCEPT ALL"
+        f" SELECT {CONTRACT_COLUMNS} FROM read_parquet(?)) UNION ALL"
+        f" (SELECT {CONTRACT_COLUMNS} FROM read_parquet(?) EXCEPT ALL"
+        f" SELECT {CONTRACT_COLUMNS} FROM read_parquet(?))",
+        [before, after, after, before],
+    ).fetchall()
+    assert differ == []
+    origins = duckdb.execute("SELECT DISTINCT _capture_origin FROM read_parquet(?)", [after])
+    assert origins.fetchall() == [("cassette",)]  # docs/snapshots.md
+
+
+def test_reparse_of_a_capture_run_reads_the_kept_memento(
+    demo_site: DemoServer, demo_archive: DemoWebArchive, tmp_path: Path
+) -> None:
+    contracts = recipe("league-contracts", demo_site.base_url, demo_archive, 2018)
+    harvest(contracts, archive=str(tmp_path))
+    asked = len(demo_archive.log), len(demo_site.log)
+    (again,) = reparse(contracts, archive=str(tmp_path)).outcomes
+    # docs/snapshots.md: reparse reads "the newest capture of that page" from the snapshot
+    # archive, and "a table whose data is the same stays the version it was". The page's
+    # capture is the memento kept there, not the live site's 410 (RFC 9110 §15.5.11).
+    assert (again.status, again.version) == ("unchanged", 1), again.line()
+    assert (len(demo_archive.log), len(demo_site.log)) == asked  # no network at all
