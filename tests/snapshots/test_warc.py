@@ -188,7 +188,7 @@ def test_a_memento_gets_a_metadata_record_naming_its_original(tmp_path: Path) ->
     # memento-datetime as application/warc-fields (§4, §8).
     link = (
         '<http://127.0.0.1:8650/seasons/2019/players.html>; rel="original",'
-        ' <http://127.0.0.1:8651/timemap/http://127.0.0.1:8650/seasons/2019/players.html>'
+        " <http://127.0.0.1:8651/timemap/http://127.0.0.1:8650/seasons/2019/players.html>"
         '; rel="timemap"; type="application/link-format"'
     )
     memento = answer(
