@@ -15,7 +15,7 @@ from harvester._version import __version__
 from harvester.cli.captures import captures_command
 from harvester.cli.demo import demo_command
 from harvester.cli.extract import extract_command
-from harvester.cli.harvest import harvest_command, reparse_command
+from harvester.cli.harvest import backfill_command, harvest_command, reparse_command
 from harvester.cli.recipes import check_command
 from harvester.cli.robots import robots_command
 from harvester.cli.snapshots import snapshots_app
@@ -69,6 +69,7 @@ def _main(
 app.command(name="extract")(extract_command)
 app.command(name="check")(check_command)
 app.command(name="harvest")(harvest_command)
+app.command(name="backfill")(backfill_command)
 app.command(name="reparse")(reparse_command)
 app.command(name="demo")(demo_command)
 app.command(name="robots")(robots_command)

@@ -1,12 +1,15 @@
-"""``harvester harvest`` and ``harvester reparse``: a recipe's tables into the archive.
+"""``harvester harvest``, ``backfill`` and ``reparse``: recipes' tables into the archive.
 
-``harvest`` fetches politely (or replays a cassette); ``reparse`` reads the snapshot archive.
+``harvest`` fetches politely (or replays a cassette); ``backfill`` harvests every planned
+partition the archive lacks; ``reparse`` reads the snapshot archive. ``harvest`` and
+``backfill`` take several recipes, or folders of them, run one after another.
 """
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from pathlib import Path
-from typing import TYPE_CHECKING, Annotated
+from typing import TYPE_CHECKING, Annotated, Any
 
 import typer
 
@@ -24,12 +27,20 @@ from harvester.errors import HarvesterError
 from harvester.fetch.limits import MAX_WAIT_LIMIT
 
 if TYPE_CHECKING:
-    from harvester.run.report import RunReport
+    from harvester.recipe import Recipe
+    from harvester.run.report import Outcome, RunReport
 
-__all__ = ["harvest_command", "reparse_command"]
+__all__ = ["backfill_command", "harvest_command", "reparse_command"]
 
 
 RecipeArgument = Annotated[Path, typer.Argument(metavar="RECIPE", help="A recipe file (TOML).")]
+RecipesArgument = Annotated[
+    list[Path],
+    typer.Argument(
+        metavar="RECIPE...", help="Recipe files (TOML), or folders whose *.toml are recipes."
+    ),
+]
+QuietOption = Annotated[bool, typer.Option("--quiet", "-q", help="Print failures only (for cron).")]
 AllOption = Annotated[
     bool, typer.Option("--all", help="Every parameter value, not just the current one.")
 ]
@@ -71,7 +82,7 @@ ReplayOption = Annotated[
 
 
 def harvest_command(
-    recipe: RecipeArgument,
+    recipes: RecipesArgument,
     archive: ArchiveOption = DEFAULT_ARCHIVE,
     param_values: ParamOption = None,
     every_value: AllOption = False,
@@ -81,48 +92,159 @@ def harvest_command(
     max_wait: MaxWaitOption = None,
     record: RecordOption = None,
     replay: ReplayOption = None,
+    quiet: QuietOption = False,
     output_format: LinesFormatOption = TextFormat.text,
 ) -> None:
-    """Harvest a recipe's tables politely into the archive, one line per table.
+    """Harvest recipes' tables politely into the archive, one line per table.
 
     Each table is fetched, read and stored as a new version of its partition, or left as it is
     when nothing changed. A table that fails is reported and touches nothing. Every exchange is
     kept in ARCHIVE/snapshots (WARC). --replay answers from a cassette instead of the network:
-    a page missing from it is that table's failed line. Exit status 1 when
-    any table failed or was refused; 5 when the archive cannot be written; waits over five
-    seconds are announced on stderr; 130 (Ctrl-C) or 143
-    (SIGTERM) when a signal stopped the run at a safe point, with the report kept.
+    a page missing from it is that table's failed line. --param season=2019..2021 (or
+    2019,2021) plans those values. Several recipes, or a folder of them, run one after another.
+    Exit status 1 when any table failed or was refused; 5 when the archive cannot be written;
+    waits over five seconds are announced on stderr; 130 (Ctrl-C) or 143 (SIGTERM) when a
+    signal stopped the run at a safe point, with the report kept.
 
     Example: harvester harvest recipes/league-players.toml --param site=http://127.0.0.1:8650
     """
+    if offline and refresh:
+        usage("--offline and --refresh contradict each other — pick one")
+    _check_cassette_options(record, replay, offline or refresh)
+    files = _recipe_files(recipes)
+    if record is not None and len(files) > 1:
+        usage("--record writes one cassette per run — give one recipe with it")
+    _run_recipes(
+        files,
+        param_values,
+        output_format,
+        quiet,
+        archive=archive,
+        replay=replay,
+        record=record,
+        contact=contact,
+        mode="offline" if offline else "refresh" if refresh else "normal",
+        every_value=every_value,
+        max_wait=max_wait,
+    )
+
+
+def backfill_command(
+    recipes: RecipesArgument,
+    archive: ArchiveOption = DEFAULT_ARCHIVE,
+    param_values: Annotated[
+        list[str] | None,
+        typer.Option(
+            "--param",
+            metavar="NAME=RANGE",
+            help="Values to fill in: A..B (both included) or A,B,C; site=URL too. Default: "
+            "every value the recipe names.",
+        ),
+    ] = None,
+    force: Annotated[
+        bool, typer.Option("--force", help="Fetch partitions the archive already holds too.")
+    ] = False,
+    contact: ContactOption = None,
+    max_wait: MaxWaitOption = None,
+    quiet: QuietOption = False,
+    output_format: LinesFormatOption = TextFormat.text,
+) -> None:
+    """Fill the archive with every planned partition it lacks: past seasons, once.
+
+    Plans every value of every parameter (or the --param ranges), skips without a request each
+    page whose tables' partitions the archive already holds (its lines say "skipped"), and
+    harvests the rest as harvest does — live, or from web-archive captures as the recipe's
+    past says. Stopped at any moment (Ctrl-C, SIGTERM, SIGKILL) and run again, it fetches
+    nothing it had stored. --force fetches every planned page again. Exit statuses as harvest.
+
+    Example: harvester backfill recipes/league-players.toml --param season=2012..2023
+    """
+    _run_recipes(
+        _recipe_files(recipes),
+        param_values,
+        output_format,
+        quiet,
+        archive=archive,
+        contact=contact,
+        every_value=True,
+        skip_stored=not force,
+        max_wait=max_wait,
+    )
+
+
+def _recipe_files(given: list[Path]) -> list[Path]:
+    """The recipe files named: files as given, folders as their *.toml files in name order."""
+    files: list[Path] = []
+    for path in given:
+        if path.is_dir():
+            found = sorted(path.glob("*.toml"))
+            if not found:
+                usage(f"{path}: a folder with no recipe (*.toml) in it")
+            files.extend(found)
+        else:
+            files.append(path)
+    return files
+
+
+def _run_recipes(
+    files: list[Path],
+    param_values: list[str] | None,
+    output_format: TextFormat,
+    quiet: bool,
+    *,
+    replay: Path | None = None,
+    **options: Any,
+) -> None:
+    """Load every recipe first (a bad one stops all before anything is fetched), then run each."""
     from harvester.recipe import load_recipe
     from harvester.run import harvest
     from harvester.snapshots.stored_source import StoredSource
 
-    if offline and refresh:
-        usage("--offline and --refresh contradict each other — pick one")
-    _check_cassette_options(record, replay, offline or refresh)
     overrides = parse_assignments(param_values, "--param", "season=2024")
     show = output_format is TextFormat.text
+    several = len(files) > 1
     try:
-        source = StoredSource.from_cassette(replay) if replay is not None else None
-        report = harvest(
-            load_recipe(recipe, overrides),
-            archive=archive,
-            source=source,
-            snapshots=replay is None,  # a replayed capture names its cassette record already
-            record=record,
-            contact=contact,
-            mode="offline" if offline else "refresh" if refresh else "normal",
-            every_value=every_value,
-            on_outcome=(lambda outcome: typer.echo(outcome.line())) if show else None,
-            stop_on_sigterm=True,
-            max_wait=max_wait,
-            on_wait=lambda notice: typer.echo(notice.line(), err=True),
-        )
+        loaded = [load_recipe(file, overrides, lenient=several) for file in files]
+        if several:
+            _check_known(overrides, loaded)
+        reports = []
+        for recipe in loaded:
+            source = StoredSource.from_cassette(replay) if replay is not None else None
+            reports.append(
+                harvest(
+                    recipe,
+                    source=source,
+                    snapshots=replay is None,  # a replayed capture names its record already
+                    on_outcome=_printer(show, quiet),
+                    stop_on_sigterm=True,
+                    on_wait=lambda notice: typer.echo(notice.line(), err=True),
+                    **options,
+                )
+            )
     except HarvesterError as error:
         fail(error)
-    _finish(report, show)
+    for report in reports:
+        _finish(report, show, quiet, fail_now=False)
+    if any(report.failed for report in reports):
+        raise typer.Exit(1)
+
+
+def _check_known(overrides: dict[str, str], recipes: list[Recipe]) -> None:
+    """Each --param must name something at least one of several recipes has."""
+    known = {"site"} | {p.name for recipe in recipes for p in recipe.parameters}
+    for name in overrides:
+        if name not in known:
+            usage(f"--param {name}: none of the recipes has a parameter by that name")
+
+
+def _printer(show: bool, quiet: bool) -> Callable[[Outcome], None] | None:
+    if not show:
+        return None
+    if quiet:
+        return lambda outcome: (
+            typer.echo(outcome.line()) if outcome.status in ("failed", "refused") else None
+        )
+    return lambda outcome: typer.echo(outcome.line())
 
 
 def reparse_command(
@@ -169,7 +291,8 @@ def _check_cassette_options(record: Path | None, replay: Path | None, cache_mode
         usage("--offline and --refresh are about the HTTP cache, which cassettes do not use")
 
 
-def _finish(report: RunReport, show: bool) -> None:
-    typer.echo(report.to_json_lines() if not show else report.summary_line(), nl=show)
-    if report.failed:
+def _finish(report: RunReport, show: bool, quiet: bool = False, *, fail_now: bool = True) -> None:
+    if not (show and quiet):
+        typer.echo(report.to_json_lines() if not show else report.summary_line(), nl=show)
+    if report.failed and fail_now:
         raise typer.Exit(1)

@@ -39,10 +39,14 @@ SECTIONS = ("recipe", "parameters", "fetch", "captures", "tables", "store")
 _REQUIRED = {"name": 'name = "league-players"', "site": 'site = "http://127.0.0.1:8650"'}
 
 
-def load_recipe(path: str | Path, overrides: Mapping[str, str] | None = None) -> Recipe:
+def load_recipe(
+    path: str | Path, overrides: Mapping[str, str] | None = None, *, lenient: bool = False
+) -> Recipe:
     """Read and check the recipe at ``path``; ``overrides`` come from ``--param NAME=VALUE``.
 
-    ``site`` replaces the recipe's site; a parameter's name sets its current value.
+    ``site`` replaces the recipe's site; a parameter's name sets its current value, or with a
+    range ``A..B`` or list ``A,B`` the values every plan covers. ``lenient`` ignores overrides
+    naming a parameter the recipe does not have (one ``--param`` for several recipes).
     """
     where = Where(str(path))
     data, digest = _read_toml(Path(path), where)
@@ -71,7 +75,9 @@ def load_recipe(path: str | Path, overrides: Mapping[str, str] | None = None) ->
         )
     tables = _read_tables(data.get("tables"), where.at("tables"), fetch.url, names)
     store = _read_store(data.get("store", {}), where.at("store"), names, tables, fetch.url)
-    site, parameters = _apply_overrides(overrides or {}, about["site"], parameters, singles, where)
+    site, parameters = _apply_overrides(
+        overrides or {}, about["site"], parameters, singles, where, lenient=lenient
+    )
     _check_capture_near(fetch, parameters, tables, where)  # after --param: it uses current values
     captures = _read_archive(data.get("captures"), where.at("captures"), fetch, where)
     return Recipe(
@@ -248,6 +254,8 @@ def _apply_overrides(
     parameters: tuple[Parameter, ...],
     singles: frozenset[str],
     where: Where,
+    *,
+    lenient: bool = False,
 ) -> tuple[str, tuple[Parameter, ...]]:
     """The site and parameters after ``--param NAME=VALUE`` overrides."""
     settable = ["site", *(parameter.name for parameter in parameters)]
@@ -258,7 +266,7 @@ def _apply_overrides(
             site = site_url(raw, at)
         elif name in by_name:
             by_name[name] = set_parameter(by_name[name], raw, single=name in singles, where=at)
-        else:
+        elif not lenient:
             hint = f"{suggest(name, settable)} you can set: {', '.join(settable)}".lstrip()
             at.fail("nothing by that name can be set", hint)
     return site, tuple(by_name.values())

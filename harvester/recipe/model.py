@@ -45,6 +45,7 @@ class Parameter:
     name: str
     values: tuple[int | str, ...]
     current: int | str
+    selected: bool = False  # values chosen by --param A..B or A,B: every plan covers them all
 
 
 @dataclass(frozen=True)
@@ -131,12 +132,15 @@ class Recipe:
     def plan(self, *, every_value: bool = False) -> list[PlannedPage]:
         """The pages to fetch: for the current parameter values, or for every combination.
 
+        A parameter whose values were selected (``--param season=2019..2021``) always plans
+        every selected value.
+
         Combinations run in declaration order, the first parameter slowest. Tables whose
         templates give the same address share one page (one fetch); an address met again in a
         later combination adds no page. A page carries only the parameters its address uses.
         """
         names = [parameter.name for parameter in self.parameters]
-        choices = [p.values if every_value else (p.current,) for p in self.parameters]
+        choices = [p.values if every_value or p.selected else (p.current,) for p in self.parameters]
         self._check_plan_size(choices)
         uses = {table.rule.name: set(template_names(table.url)) for table in self.tables}
         pages: dict[str, tuple[dict[str, int | str], list[str]]] = {}

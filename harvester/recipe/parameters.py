@@ -135,11 +135,39 @@ def read_parameters(value: object, where: Where) -> tuple[tuple[Parameter, ...],
 
 
 def set_parameter(parameter: Parameter, raw: str, *, single: bool, where: Where) -> Parameter:
-    """``parameter`` with the current value ``raw`` from ``--param NAME=VALUE``.
+    """``parameter`` after ``--param NAME=VALUE``: one value becomes the current one; a range
+    ``A..B`` (inclusive) or a list ``A,B,C`` becomes the values every plan covers.
 
-    A parameter written as one bare value takes any value; otherwise ``raw`` must be one of
-    its values. Integer parameters take decimal integers only.
+    A parameter written as one bare value takes any values; otherwise each must be one of its
+    values (a range of text values is the declared values from A to B). Integer parameters
+    take decimal integers only. A raw value that is itself a declared value is that value.
     """
+    if _declared(parameter, raw):
+        return _set_one(parameter, raw, single=single, where=where)
+    found = _RANGE.fullmatch(raw)
+    if found is not None:
+        return _select(parameter, _range(parameter, found["a"], found["b"], single, where), where)
+    if "," in raw:
+        picked = [_one(parameter, item.strip(), where) for item in raw.split(",")]
+        if not single:
+            for value in picked:
+                _check_declared(parameter, value, where)
+        return _select(parameter, picked, where)
+    return _set_one(parameter, raw, single=single, where=where)
+
+
+_RANGE = re.compile(r"(?P<a>[^.]+(?:\.[^.]+)*)\.\.(?P<b>[^.]+(?:\.[^.]+)*)")
+
+
+def _declared(parameter: Parameter, raw: str) -> bool:
+    """Whether ``raw`` is exactly one of the parameter's declared values."""
+    if isinstance(parameter.values[0], int):
+        return re.fullmatch(r"[+-]?[0-9]{1,18}", raw) is not None and int(raw) in parameter.values
+    return raw in parameter.values
+
+
+def _one(parameter: Parameter, raw: str, where: Where) -> int | str:
+    """One raw value read as the parameter's kind (an integer for integer parameters)."""
     name = parameter.name
     example = f"e.g. --param {name}={parameter.values[-1]}"
     value: int | str = raw
@@ -149,9 +177,52 @@ def set_parameter(parameter: Parameter, raw: str, *, single: bool, where: Where)
         if len(raw.lstrip("+-")) > MAX_DIGITS:
             where.fail(f"{name} takes an integer of at most {MAX_DIGITS} digits", example)
         value = int(raw)
-    value = _value(value, where)
-    if single:
-        return Parameter(name, (value,), value)
+    return _value(value, where)
+
+
+def _check_declared(parameter: Parameter, value: int | str, where: Where) -> None:
     if value not in parameter.values:
+        example = f"e.g. --param {parameter.name}={parameter.values[-1]}"
         where.fail(f"must be one of {_describe(parameter.values)}, got {show(value)}", example)
-    return replace(parameter, current=value)
+
+
+def _set_one(parameter: Parameter, raw: str, *, single: bool, where: Where) -> Parameter:
+    value = _one(parameter, raw, where)
+    if single:
+        return Parameter(parameter.name, (value,), value)
+    _check_declared(parameter, value, where)
+    return replace(parameter, current=value, selected=False)
+
+
+def _range(
+    parameter: Parameter, first_raw: str, last_raw: str, single: bool, where: Where
+) -> list[int | str]:
+    """The values from A to B, both included: integers counted, text taken in declared order."""
+    first, last = _one(parameter, first_raw, where), _one(parameter, last_raw, where)
+    if isinstance(first, int) and isinstance(last, int):
+        if last < first:
+            where.fail(f"range {first}..{last} runs downwards", f"write {last}..{first}")
+        if last - first >= MAX_RANGE:
+            where.fail(f"range {first}..{last} holds more than {MAX_RANGE} values", "narrow it")
+        values: list[int | str] = list(range(first, last + 1))
+        if not single:
+            for end_value in (first, last):
+                _check_declared(parameter, end_value, where)
+            values = [value for value in values if value in parameter.values]
+        return values
+    if single:
+        where.fail("a range needs declared values or integers", "list the values: A,B,C")
+    for end_text in (first, last):
+        _check_declared(parameter, end_text, where)
+    start, end = parameter.values.index(first), parameter.values.index(last)
+    if end < start:
+        where.fail(f"range {first}..{last} runs against the declared order", "swap the two")
+    return list(parameter.values[start : end + 1])
+
+
+def _select(parameter: Parameter, values: Sequence[int | str], where: Where) -> Parameter:
+    """The parameter planning exactly ``values`` (in the order given, each once)."""
+    unique = tuple(dict.fromkeys(values))
+    if not unique:
+        where.fail("selects no value", f"e.g. --param {parameter.name}={parameter.values[-1]}")
+    return replace(parameter, values=unique, current=unique[-1], selected=True)

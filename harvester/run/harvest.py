@@ -38,6 +38,7 @@ from harvester.fetch.client import Fetcher, FetchMode
 from harvester.fetch.exchange import AnswerListener
 from harvester.fetch.identity import Identity
 from harvester.fetch.limits import FetchLimits
+from harvester.fetch.pacing import host_key
 from harvester.fetch.past import past_source
 from harvester.fetch.source import PageRequest, PageSource
 from harvester.fetch.waits import WaitAnnouncer, log_wait
@@ -71,6 +72,7 @@ def harvest(
     on_wait: WaitAnnouncer = log_wait,
     record: Path | None = None,
     snapshots: bool = True,
+    skip_stored: bool = False,
 ) -> RunReport:
     """Run ``recipe`` for its current parameter values (or every value) into ``archive``.
 
@@ -81,7 +83,13 @@ def harvest(
     every exchange of the run; the live fetcher then reads no HTTP cache, so the cassette holds
     each page's exchanges themselves (redirects included) and replays without the cache.
     ``snapshots=False`` keeps no snapshot archive: rows have the ``_warc_record_id`` their
-    source gives (a cassette's, the snapshot archive's), else none.
+    source gives (a cassette's, the snapshot archive's), else none. ``skip_stored`` (a backfill)
+    asks nothing for a page whose every table's partition the archive already holds: those
+    tables are ``skipped``.
+
+    Pages on different hosts proceed side by side (the live site and its web archive, or
+    several sites), one request in flight per host at its own pace; outcomes are reported as
+    they come, and kept in the report in plan order.
 
     The run report is written however the run ends. Ctrl-C (SIGINT) — and SIGTERM when
     ``stop_on_sigterm`` is set, which only the main thread can do — stops the run at the next
@@ -97,7 +105,7 @@ def harvest(
         "operator": _contact(recipe, contact) or "",
         "robots": "obey",  # WARC 1.1 §6.2's suggested warcinfo field: robots.txt is honoured
     }
-    run = _Run(recipe, archive, report, on_outcome, info, record, snapshots)
+    run = _Run(recipe, archive, report, on_outcome, info, record, snapshots, skip_stored)
 
     def live(on_answer: AnswerListener) -> Fetcher:
         return live_source(
@@ -144,7 +152,9 @@ class _Run:
         info: dict[str, str],
         cassette: Path | None,
         snapshots: bool,
+        skip_stored: bool = False,
     ) -> None:
+        self.skip_stored = skip_stored
         self.recipe = recipe
         self.archive = archive
         self.report = report
@@ -175,17 +185,41 @@ class _Run:
                 if not isinstance(source, PageSource):
                     source = await stack.enter_async_context(source(recorder.keep))
                 source = recorder.wrap(past_source(source, self.recipe.captures))
-                for page in pages:
-                    outcomes = await _harvest_page(self.recipe, page, source, writer, self.report)
-                    self.report.pages_done += 1
-                    for outcome in outcomes:
-                        self._add(outcome)
+                await self._walk(pages, source, writer)
         except asyncio.CancelledError:
             if self.report.interrupted_by != "SIGTERM":
                 raise  # Ctrl-C: asyncio.Runner turns it into KeyboardInterrupt for harvest()
         finally:
             if stop_on_sigterm:
                 loop.remove_signal_handler(signal.SIGTERM)
+
+    async def _walk(
+        self, pages: Sequence[PlannedPage], source: PageSource, writer: ArchiveWriter
+    ) -> None:
+        """Every page, by a few workers side by side: each host's pacer keeps its requests one
+        at a time and spaced, so workers only overlap waits on different hosts."""
+        order = {page.url: index for index, page in enumerate(pages)}
+        queue = iter(pages)
+
+        async def work() -> None:
+            for page in queue:  # one iterator shared: each page is taken by one worker
+                stored = _stored(self.recipe, page, writer) if self.skip_stored else None
+                if stored is not None:
+                    outcomes = stored
+                else:
+                    outcomes = await _harvest_page(self.recipe, page, source, writer, self.report)
+                self.report.pages_done += 1
+                for outcome in outcomes:
+                    self._add(outcome)
+
+        workers = [asyncio.create_task(work()) for _ in range(_workers(self.recipe, pages))]
+        try:
+            await asyncio.gather(*workers)
+        finally:
+            for worker in workers:
+                worker.cancel()
+            await asyncio.gather(*workers, return_exceptions=True)
+            self.report.outcomes.sort(key=lambda outcome: order.get(outcome.url, len(order)))
 
     def _recorder(self) -> SnapshotRecorder:
         snapshots = local_folder(self.archive, SNAPSHOTS_DIR) if self.snapshots else None
@@ -269,6 +303,37 @@ def _immutable(recipe: Recipe, page: PlannedPage) -> bool:
         return False
     numbers = [value for value in page.parameters.values() if isinstance(value, int)]
     return bool(numbers) and all(value < limit for value in numbers)
+
+
+MAX_WORKERS = 16  # pages in progress at once: enough to keep every host of a plan busy
+
+
+def _workers(recipe: Recipe, pages: Sequence[PlannedPage]) -> int:
+    """Two workers per host the plan may ask (its pages', its archive's), at least one."""
+    hosts = {host_key(page.url) for page in pages}
+    if recipe.captures is not None and recipe.fetch.past != "live":
+        hosts |= {host_key(origin) for origin in recipe.captures.hosts}
+    return max(1, min(len(pages), 2 * len(hosts), MAX_WORKERS))
+
+
+def _stored(recipe: Recipe, page: PlannedPage, writer: ArchiveWriter) -> list[Outcome] | None:
+    """The ``skipped`` outcomes of a page whose every table the archive already holds."""
+    partition = [(name, page.parameters.get(name)) for name in recipe.store.partition_by]
+    versions = {name: writer.stored_version(recipe.name, name, partition) for name in page.tables}
+    if not all(versions.values()):
+        return None
+    return [
+        Outcome(
+            recipe.name,
+            name,
+            page.url,
+            dict(partition),
+            "skipped",
+            version=version,
+            message=f"already in the archive (version {version}); nothing fetched",
+        )
+        for name, version in versions.items()
+    ]
 
 
 def _row_source(recipe: Recipe, capture: Capture, selector: str) -> RowSource:

@@ -18,7 +18,9 @@ from harvester.timestamps import rfc3339
 
 __all__ = ["Outcome", "RunReport", "Status", "summary", "write_report"]
 
-Status = Literal["new", "unchanged", "refused", "failed"]
+Status = Literal["new", "unchanged", "refused", "failed", "skipped"]
+"""What happened to a table: a new version, none needed, refused, failed, or skipped (a backfill
+found its partition already in the archive and asked for nothing)."""
 RUNS_DIR = "runs"
 
 
@@ -48,10 +50,12 @@ class Outcome:
     def line(self) -> str:
         """One human line for the run summary."""
         where = ",".join(f"{k}={v}" for k, v in self.partition.items()) or "-"
-        detail = f"{self.rows} rows, version {self.version}" if self.status != "failed" else ""
+        detail = f"{self.rows} rows, version {self.version}"
+        if self.status in ("failed", "skipped"):
+            detail = f"version {self.version}" if self.version else ""
         # The store's message repeats table and partition; it is worth a column only when it
         # says why (a failure, a refusal) or warns (drift).
-        worth = self.status in ("failed", "refused") or "drift" in self.message
+        worth = self.status in ("failed", "refused", "skipped") or "drift" in self.message
         parts = [self.status, f"{self.dataset}/{self.table}", where, detail, self.source_text]
         parts.append(self.url)
         said = [self.message] if worth else []

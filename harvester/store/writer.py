@@ -125,6 +125,13 @@ class ArchiveWriter:
         self._held = False
         self._lock.release()
 
+    def stored_version(
+        self, dataset: str, table: str, partition: Sequence[tuple[str, PartitionValue]]
+    ) -> int:
+        """The partition's latest complete version, 0 when the archive holds none."""
+        folder = join(self._base, partition_path(dataset, table, tuple(partition)))
+        return self._latest_version(folder)
+
     def commit(
         self,
         dataset: str,
