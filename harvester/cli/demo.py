@@ -12,6 +12,7 @@ from harvester.cli.common import DEFAULT_ARCHIVE, ArchiveOption, fail, usage
 from harvester.cli.render import table_to_rich
 from harvester.errors import HarvesterError
 from harvester.formats import json_value
+from harvester.run.report import Outcome
 
 __all__ = ["demo_command"]
 
@@ -43,18 +44,28 @@ def demo_command(
     crawl_delay: Annotated[
         float, typer.Option("--crawl-delay", help="Crawl-delay the served robots.txt asks for.")
     ] = 0.5,
+    advance: Annotated[
+        bool,
+        typer.Option(
+            "--advance",
+            help="Move the demo's clock on first: the latest season's numbers change, so the"
+            " run writes new versions and shows their diff.",
+        ),
+    ] = False,
 ) -> None:
     """Harvest the invented league from its loopback site into an archive, and read it back.
 
     Starts the demo site and its web archive on 127.0.0.1, runs recipes/league-*.toml against
     them (robots.txt, pacing, cache, extraction, versioned Parquet): the current season from
-    the live site, and two seasons the live site no longer serves from web-archive captures.
-    Prints one line per table, then reads the archive back. Run it twice: the second run finds
-    nothing changed.
+    the live site, then a backfill of 2019-2025 — two seasons live, five the site no longer
+    serves from web-archive captures. Prints one line per table, then reads the archive back.
+    Run it twice: the second run finds nothing changed (the backfill skips what is stored).
+    --advance moves the demo's clock (kept in the archive folder) so a run shows new versions
+    and their diff.
 
     Example: harvester demo --archive /tmp/league-archive
     """
-    from harvester.demo.tour import DEMO_PAST_SEASONS, preview_archive, run_demo, write_demo_site
+    from harvester.demo.tour import DEMO_BACKFILL, preview_archive, run_demo, write_demo_site
 
     if serve:
         _serve_demo(port, crawl_delay)
@@ -65,7 +76,8 @@ def demo_command(
             typer.echo(f"wrote {len(written)} pages of the demo site under {write_site}")
             return
         typer.echo("harvesting the demo league from a loopback site (invented data) …")
-        done = run_demo(archive, season, seasons=DEMO_PAST_SEASONS if season is None else ())
+        backfill = DEMO_BACKFILL if season is None else None
+        done = run_demo(archive, season, backfill=backfill, advance=advance)
         previews = preview_archive(archive, rows, season)
     except HarvesterError as error:
         fail(error)
@@ -73,12 +85,36 @@ def demo_command(
     for report in done.reports:
         for outcome in report.outcomes:
             typer.echo(outcome.line())
+    _show_changes(archive, [o for report in done.reports for o in report.outcomes])
     for preview in previews:
         shown = [[json_value(value) for value in row] for row in preview.rows]
         table_to_rich(shown, preview.columns, sys.stdout, title=preview.title)
     _show_duckdb_query(archive)
     if any(report.failed for report in done.reports):
         raise typer.Exit(1)
+
+
+def _show_changes(archive: str, outcomes: list[Outcome], shown_rows: int = 3) -> None:
+    """The diff of every new version that replaced an older one, a few rows each."""
+    from harvester.store.archive import Archive
+    from harvester.store.partition_diff import diff_partition
+
+    for outcome in outcomes:
+        if outcome.row_changes is None:
+            continue
+        wanted = {k: None if v is None else str(v) for k, v in outcome.partition.items()}
+        try:
+            found = diff_partition(Archive(archive), outcome.dataset, outcome.table, wanted)
+        except HarvesterError:
+            continue
+        lines = found.text_lines()
+        typer.echo("\n".join(lines[: 2 + shown_rows]))
+        if len(lines) > 2 + shown_rows:
+            where = " ".join(f"--partition {k}={v}" for k, v in outcome.partition.items())
+            typer.echo(
+                f"  … {len(lines) - 2 - shown_rows} more: harvester diff"
+                f" {outcome.dataset}/{outcome.table} {where} --archive {archive}"
+            )
 
 
 def _show_duckdb_query(archive: str) -> None:

@@ -8,6 +8,7 @@ compares whole rows when none were recorded.
 from __future__ import annotations
 
 import json
+from datetime import UTC, datetime
 from typing import Annotated
 
 import typer
@@ -86,6 +87,14 @@ def diff_command(
     to_version: Annotated[
         int | None, typer.Option("--to", metavar="M", help="Newer version (default: the latest).")
     ] = None,
+    since: Annotated[
+        str | None,
+        typer.Option("--since", metavar="TIME", help="Without --partition: versions from TIME."),
+    ] = None,
+    until: Annotated[
+        str | None,
+        typer.Option("--until", metavar="TIME", help="Without --partition: versions before TIME."),
+    ] = None,
     archive: ArchiveOption = DEFAULT_ARCHIVE,
     output_format: Annotated[
         TextFormat, typer.Option("--format", "-f", help="text or json.")
@@ -99,10 +108,19 @@ def diff_command(
     changed column's old → new value (values as JSON). A null partition value is written
     __HIVE_DEFAULT_PARTITION__.
 
+    Without --partition, for a table of several partitions: one line per partition that changed
+    in the latest run that wrote a version of it (from ARCHIVE/runs), or whose versions were
+    committed between --since and --until, with its rows added, removed and changed.
+
     Example: harvester diff league-players/players --partition season=2019 --from 1 --to 3
     """
     dataset, table = _split_target(target, table_required=True)
     assert table is not None
+    if not partition and (since or until or _partitioned(archive, dataset, table)):
+        _summarise(archive, dataset, table, since, until, output_format)
+        return
+    if since or until:
+        usage("--since and --until pick partitions; with --partition use --from and --to")
     pairs = parse_assignments(partition, "--partition", "season=2019", metavar="KEY=VALUE")
     wanted = {key: None if value == NULL_SEGMENT else value for key, value in pairs.items()}
     try:
@@ -114,3 +132,49 @@ def diff_command(
         return
     for line in found.text_lines():
         typer.echo(line)
+
+
+def _partitioned(archive: str, dataset: str, table: str) -> bool:
+    """Whether the table has more than one partition (unreadable: let the diff say why)."""
+    try:
+        return len({info.partition for info in Archive(archive).versions(dataset, table)}) > 1
+    except HarvesterError:
+        return False
+
+
+def _summarise(
+    archive: str,
+    dataset: str,
+    table: str,
+    since: str | None,
+    until: str | None,
+    output_format: TextFormat,
+) -> None:
+    from harvester.run.changes import changed_partitions
+
+    try:
+        changes = changed_partitions(
+            archive,
+            dataset,
+            table,
+            since=_moment(since, "--since"),
+            until=_moment(until, "--until"),
+        )
+    except HarvesterError as error:
+        fail(error)
+    if output_format is TextFormat.json:
+        typer.echo(json.dumps([change.to_dict() for change in changes], ensure_ascii=False))
+        return
+    typer.echo(f"{dataset}/{table}: {len(changes)} partition(s) changed")
+    for change in changes:
+        typer.echo(change.line())
+
+
+def _moment(text: str | None, option: str) -> datetime | None:
+    if text is None:
+        return None
+    try:
+        moment = datetime.fromisoformat(text.strip())
+    except ValueError:
+        usage(f"{option} {text!r} is not an ISO 8601 date or time; e.g. {option} 2026-06-01")
+    return moment.replace(tzinfo=UTC) if moment.utcoffset() is None else moment.astimezone(UTC)

@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import dataclasses
 import socket
-from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -29,7 +28,8 @@ from harvester.store.contract import data_columns
 __all__ = [
     "DEMO_ARCHIVE",
     "DEMO_ARCHIVE_PORT",
-    "DEMO_PAST_SEASONS",
+    "DEMO_BACKFILL",
+    "DEMO_CLOCK",
     "DEMO_PORT",
     "DEMO_RECIPES",
     "DemoRun",
@@ -45,7 +45,7 @@ DEMO_RECIPES = ("league-players.toml", "league-contracts.toml", "league-standing
 DEMO_PORT = 8650  # the port the demo recipes name in their site
 DEMO_ARCHIVE_PORT = 8651  # the port of the web archive their [captures] name
 DEMO_ARCHIVE = f"http://{LOOPBACK}:{DEMO_ARCHIVE_PORT}"
-DEMO_PAST_SEASONS = (2023, 2019)  # gone from the live site (404, 410): taken from captures
+DEMO_BACKFILL = "2019..2025"  # 2024-2025 live; 2021-2023 (404) and 2019-2020 (410) from captures
 
 
 @dataclass(frozen=True)
@@ -56,6 +56,7 @@ class DemoRun:
     archive: str
     reports: tuple[RunReport, ...]
     web_archive: str = ""
+    revision: int = 0  # the demo site's clock during the run
 
 
 @dataclass(frozen=True)
@@ -91,27 +92,58 @@ def run_demo(
     archive: str = "archive",
     season: int | None = None,
     crawl_delay: float = 0.2,
-    seasons: Sequence[int] = (),
+    backfill: str | None = None,
+    advance: bool = False,
 ) -> DemoRun:
-    """Serve the demo site and its web archive, harvest every demo recipe into ``archive``
-    (``season``, else the current one, then each of ``seasons``), stop both."""
+    """Serve the demo site and its web archive, harvest every demo recipe into ``archive``,
+    stop both.
+
+    Each recipe is harvested for ``season`` (else the current one), then, with ``backfill``
+    (a range such as ``DEMO_BACKFILL``), backfilled over those seasons: partitions already
+    stored are skipped, retired seasons come from captures. The demo's clock is kept in the
+    archive folder (``DEMO_CLOCK``); ``advance`` moves it on first, so the site's latest season
+    shows new numbers (a new version, and its diff).
+    """
     folder = demo_recipe_dir()
     port = DEMO_PORT if _free(DEMO_PORT) else 0
     archive_port = DEMO_ARCHIVE_PORT if _free(DEMO_ARCHIVE_PORT) else 0
+    revision = _clock(archive, advance)
     with (
-        DemoServer(port=port, crawl_delay=crawl_delay) as site,
+        DemoServer(port=port, crawl_delay=crawl_delay, revision=revision) as site,
         DemoWebArchive(site=site.base_url, port=archive_port, crawl_delay=crawl_delay) as web,
     ):
         reports = []
-        planned = [season] if season is not None else [None]
         for file_name in DEMO_RECIPES:
-            for value in [*planned, *seasons]:
-                overrides = {"site": site.base_url}
-                if value is not None:
-                    overrides["season"] = str(value)
-                recipe = with_demo_archive(load_recipe(folder / file_name, overrides), web.base_url)
-                reports.append(harvest(recipe, archive=archive))
-        return DemoRun(site.base_url, archive, tuple(reports), web.base_url)
+            overrides = {"site": site.base_url}
+            if season is not None:
+                overrides["season"] = str(season)
+            recipe = with_demo_archive(load_recipe(folder / file_name, overrides), web.base_url)
+            # After --advance the cached copies are still fresh: ask the site again.
+            reports.append(
+                harvest(recipe, archive=archive, mode="refresh" if advance else "normal")
+            )
+            if backfill is not None:
+                past = load_recipe(folder / file_name, {"site": site.base_url, "season": backfill})
+                past = with_demo_archive(past, web.base_url)
+                reports.append(harvest(past, archive=archive, skip_stored=True))
+        return DemoRun(site.base_url, archive, tuple(reports), web.base_url, revision)
+
+
+DEMO_CLOCK = ".demo-clock"  # in the archive folder: the demo site's revision, one integer
+
+
+def _clock(archive: str, advance: bool) -> int:
+    """The demo site's revision kept in ``archive`` (0 at first), moved on by one to advance."""
+    path = Path(archive) / DEMO_CLOCK
+    try:
+        revision = int(path.read_text(encoding="ascii").strip() or 0)
+    except (OSError, ValueError):
+        revision = 0
+    if advance:
+        revision += 1
+        path.parent.mkdir(parents=True, exist_ok=True)
+        path.write_text(f"{revision}\n", encoding="ascii")
+    return revision
 
 
 def with_demo_archive(recipe: Recipe, base_url: str) -> Recipe:

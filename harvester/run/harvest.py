@@ -48,7 +48,9 @@ from harvester.run.provenance import RowSource, with_provenance
 from harvester.run.report import Outcome, RunReport, Status, write_report
 from harvester.snapshots.entry import SNAPSHOTS_DIR
 from harvester.snapshots.recorder import SnapshotRecorder
+from harvester.store.archive import Archive
 from harvester.store.layout import join, open_root
+from harvester.store.partition_diff import diff_partition
 from harvester.store.writer import ArchiveWriter
 from harvester.timestamps import rfc3339
 
@@ -455,8 +457,24 @@ async def _harvest_capture(
         except Exception as error:
             outcomes[name] = outcome(name, "failed", _unexpected(error))
             continue
-        outcomes[name] = outcome(name, result.status, result.message, result.rows, result.version)
+        done = outcome(name, result.status, result.message, result.rows, result.version)
+        if result.status == "new" and result.version > 1:
+            done = dataclasses.replace(done, row_changes=_row_changes(report, recipe, name, where))
+        outcomes[name] = done
     return lacking
+
+
+def _row_changes(
+    report: RunReport, recipe: Recipe, table: str, partition: dict[str, int | str | None]
+) -> dict[str, int] | None:
+    """Rows added, removed and changed (by the recorded key) from the previous version."""
+    wanted = {key: None if value is None else str(value) for key, value in partition.items()}
+    try:
+        found = diff_partition(Archive(report.archive), recipe.name, table, wanted)
+    except HarvesterError:
+        return None  # the new version is published; a diff that cannot be read is no failure
+    counts = found.diff.counts
+    return {key: counts[key] for key in ("added", "removed", "changed")}
 
 
 def _unexpected(error: Exception) -> str:

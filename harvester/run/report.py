@@ -39,6 +39,7 @@ class Outcome:
     origin: str = ""  # where the page came from: live, cache, web-archive, …
     memento_datetime: str | None = None  # a web-archive capture's date (RFC 3339)
     notes: tuple[str, ...] = ()  # what the source said of the page (captures skipped, …)
+    row_changes: dict[str, int] | None = None  # a new version's rows added/removed/changed
 
     @property
     def source_text(self) -> str:
@@ -51,6 +52,12 @@ class Outcome:
         """One human line for the run summary."""
         where = ",".join(f"{k}={v}" for k, v in self.partition.items()) or "-"
         detail = f"{self.rows} rows, version {self.version}"
+        if self.row_changes is not None:
+            counts = self.row_changes
+            detail += (
+                f" ({counts['added']} added, {counts['removed']} removed,"
+                f" {counts['changed']} changed)"
+            )
         if self.status in ("failed", "skipped"):
             detail = f"version {self.version}" if self.version else ""
         # The store's message repeats table and partition; it is worth a column only when it

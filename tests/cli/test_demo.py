@@ -10,18 +10,21 @@ from harvester.cli import app
 
 
 def outcome_lines(stdout: str) -> list[list[str]]:
-    statuses = ("new\t", "unchanged\t", "refused\t", "failed\t")
+    statuses = ("new\t", "unchanged\t", "refused\t", "failed\t", "skipped\t")
     lines = [line.split("\t") for line in stdout.splitlines() if line.startswith(statuses)]
     return [[line[0], line[1], line[2], line[4]] for line in lines]
 
 
-# The live demo site serves 2026 and answers 404 for 2023, 410 for 2019; the demo archive's
-# schedule (harvester/demo/archive_routes.py) puts the capture nearest 30 June on 28 June at
-# 14:05:09, except 2019, whose 28 June capture is an archived 404: 3 July 08:30:00 is next.
+# The live demo site serves 2024-2026 and answers 404 for 2021-2023, 410 before; the demo
+# archive's schedule (harvester/demo/archive_routes.py) puts the capture nearest 30 June on 28
+# June at 14:05:09, except 2019, whose 28 June capture is an archived 404: 3 July 08:30:00 is
+# next. The demo harvests 2026, then backfills 2019..2025 (both included).
 SOURCES = {
     "2026": "live",
-    "2023": "capture of 2023-06-28T14:05:09Z",
     "2019": "capture of 2019-07-03T08:30:00Z",
+    **{str(year): f"capture of {year}-06-28T14:05:09Z" for year in range(2020, 2024)},
+    "2024": "live",
+    "2025": "live",
 }
 PAGES = {
     "league-players": ["players", "advanced"],
@@ -30,9 +33,9 @@ PAGES = {
 }
 
 
-def expected(status: str) -> list[list[str]]:
+def expected() -> list[list[str]]:
     return [
-        [status, f"{dataset}/{table}", f"season={season}", source]
+        [f"{dataset}/{table}", f"season={season}", source]
         for dataset, tables in PAGES.items()
         for season, source in SOURCES.items()
         for table in tables
@@ -42,14 +45,26 @@ def expected(status: str) -> list[list[str]]:
 def test_demo_command_harvests_and_reads_back(tmp_path: Path) -> None:
     result = CliRunner().invoke(app, ["demo", "--archive", str(tmp_path), "--rows", "2"])
     assert result.exit_code == 0, result.stderr
-    assert outcome_lines(result.stdout) == expected("new")
+    first = outcome_lines(result.stdout)
+    assert [line[1:] for line in first] == expected()
+    assert {line[0] for line in first} == {"new"}
     assert "read_parquet(" in result.stdout  # shows how to read it without harvester
     again = CliRunner().invoke(app, ["demo", "--archive", str(tmp_path), "--rows", "2"])
     assert again.exit_code == 0, again.stderr
-    # The second run finds nothing changed (the live page may now come from the cache).
-    assert [line[:3] for line in outcome_lines(again.stdout)] == [
-        line[:3] for line in expected("unchanged")
+    # Nothing changed: the current season is unchanged, the backfill skips what it stored.
+    second = outcome_lines(again.stdout)
+    assert [line[1:3] for line in second] == [line[:2] for line in expected()]
+    assert [line[0] for line in second] == [
+        "unchanged" if season == "season=2026" else "skipped" for _, season, _ in expected()
     ]
+    moved = CliRunner().invoke(
+        app, ["demo", "--archive", str(tmp_path), "--rows", "2", "--advance"]
+    )
+    assert moved.exit_code == 0, moved.stderr
+    players = [line for line in outcome_lines(moved.stdout) if line[1:3] == [
+        "league-players/players", "season=2026"]]  # fmt: skip
+    assert players[0][0] == "new"
+    assert "league-players/players season=2026: version 1 → 2" in moved.stdout.splitlines()
 
 
 def test_demo_writes_the_site(tmp_path: Path) -> None:
