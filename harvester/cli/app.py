@@ -17,6 +17,7 @@ from harvester.cli.demo import demo_command
 from harvester.cli.extract import extract_command
 from harvester.cli.harvest import backfill_command, harvest_command, reparse_command
 from harvester.cli.recipes import check_command
+from harvester.cli.requests import requests_command
 from harvester.cli.robots import robots_command
 from harvester.cli.snapshots import snapshots_app
 from harvester.cli.store import diff_command, versions_command
@@ -73,6 +74,7 @@ app.command(name="backfill")(backfill_command)
 app.command(name="reparse")(reparse_command)
 app.command(name="demo")(demo_command)
 app.command(name="robots")(robots_command)
+app.command(name="requests")(requests_command)
 app.command(name="captures")(captures_command)
 app.command(name="versions")(versions_command)
 app.command(name="diff")(diff_command)

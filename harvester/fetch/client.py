@@ -9,6 +9,7 @@ retries and robots.txt fetching are in ``exchange``, which hands every answer to
 No single wait exceeds ``FetchLimits.max_wait``; waits over five seconds go to ``on_wait``.
 The pace per host is shared by every harvest of the user on the machine (``shared_pace``):
 ``state_dir``, else ``$HARVESTER_STATE_DIR``, else the user's state folder, holds it.
+``stats`` counts, per host, what the fetcher asked and what it served from the cache.
 """
 
 from __future__ import annotations
@@ -39,6 +40,7 @@ from harvester.fetch.cache_entry import cache_directives
 from harvester.fetch.capture import Capture, Origin, header
 from harvester.fetch.disk_store import open_store
 from harvester.fetch.exchange import REDIRECTS, AnswerListener, PacedSender
+from harvester.fetch.host_stats import HostStats
 from harvester.fetch.identity import Identity
 from harvester.fetch.limits import FetchLimits
 from harvester.fetch.pacing import DEFAULT_INTERVAL, HostPacer, describe, host_key
@@ -129,6 +131,7 @@ class Fetcher:
         if cache_dir is not None:
             self._robots_store = open_store(Path(cache_dir) / "robots", "robots store")
         self._client = _http_client(identity, self.limits, transport)
+        self.stats = HostStats()  # for the run report: what each host saw of this fetcher
         # The pace is kept per user, not per cache folder: harvests of other recipes, into
         # other archives, started at once or right after this one, take turns per host.
         self.shared_pace = SharedPace(
@@ -146,6 +149,7 @@ class Fetcher:
             backoff_max=backoff_max,
             shared=self.shared_pace,
             on_answer=on_answer,  # every answer read in full, for the snapshot archive
+            stats=self.stats,
         )
         self.robots = RobotsGate(
             self._sender.fetch_robots,
@@ -207,6 +211,7 @@ class Fetcher:
         # --refresh revalidates every copy, immutable ones too (docs/fetching.md).
         reusable = lookup.state == "fresh" or (stored is not None and stored.immutable)
         if stored is not None and reusable and self.mode == "normal":
+            self.stats.cache_hit(url)
             return cached_capture(url, stored)
         conditional: dict[str, str] = {}
         if lookup.response is not None:
@@ -302,6 +307,7 @@ class Fetcher:
                 url=url,
                 hint="run once without --offline to revalidate it",
             )
+        self.stats.cache_hit(url)
         return cached_capture(url, stored)
 
     def _apply_crawl_delay(self, url: str, rules: RobotsTxt) -> None:
@@ -325,6 +331,7 @@ class Fetcher:
         self.pacer.set_interval(
             host, max(site if site is not None else DEFAULT_INTERVAL, self.min_interval)
         )
+        self.stats.set_interval(url, self.pacer.interval(host))
 
     async def _allowed(self, url: str) -> None:
         rules = await self.check_robots(url)

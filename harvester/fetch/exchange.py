@@ -5,7 +5,9 @@ on the whole machine from the shared pace (so other harvests, and later runs, ke
 too; holds after a 429, 503 or failure are shared as well), turns 429/503/5xx and
 network errors into ``Transient`` failures worth retrying (pushing the host back first), and
 turns a wait the site asks for beyond ``FetchLimits.max_wait`` into a skipped host: each of its
-later requests fails at once with the same message. The fetcher (client.py) builds on it.
+later requests fails at once with the same message. Every request sent, every retry and every
+wait for a host's turn is counted in ``stats`` (``host_stats``). The fetcher (client.py) builds
+on it.
 """
 
 from __future__ import annotations
@@ -21,13 +23,14 @@ from tenacity.wait import wait_random_exponential
 
 from harvester.errors import FetchLimitError
 from harvester.fetch.capture import header
+from harvester.fetch.host_stats import HostStats
 from harvester.fetch.httpdate import parse_http_date, parse_retry_after
 from harvester.fetch.limits import FetchLimits
 from harvester.fetch.pacing import HostKey, HostPacer, describe, host_key
 from harvester.fetch.robots_gate import RobotsAnswer
 from harvester.fetch.shared_pace import SharedPace
 from harvester.fetch.targets import redact, redirect_problem
-from harvester.fetch.transfer import Answer, Transient, get
+from harvester.fetch.transfer import Answer, Transient, get, now
 from harvester.fetch.waits import cap_hint, seconds_text
 
 __all__ = ["REDIRECTS", "AnswerListener", "PacedSender"]
@@ -52,9 +55,11 @@ class PacedSender:
         backoff_max: float,
         shared: SharedPace | None,
         on_answer: AnswerListener | None = None,
+        stats: HostStats | None = None,
     ) -> None:
         self.client, self.pacer, self.limits, self.retries = client, pacer, limits, retries
         self.on_answer = on_answer
+        self.stats = stats if stats is not None else HostStats()
         # Exponential back-off with full jitter: a random wait up to initial × 2^attempt.
         self._backoff = wait_random_exponential(multiplier=backoff_initial, max=backoff_max)
         self._shared = shared
@@ -78,8 +83,14 @@ class PacedSender:
             stop=stop_after_attempt(self.retries + 1),
             wait=self._wait,
             retry=retry_if_exception_type(Transient),
+            before_sleep=self._count_retry,  # called only when another attempt follows
             reraise=True,
         )
+
+    def _count_retry(self, state: RetryCallState) -> None:
+        failure = state.outcome.exception() if state.outcome is not None else None
+        if isinstance(failure, Transient):
+            self.stats.retried(failure.url)
 
     def _wait(self, state: RetryCallState) -> float:
         failure = state.outcome.exception() if state.outcome is not None else None
@@ -103,8 +114,13 @@ class PacedSender:
         held = self._holds_to_share.pop(host, None)
         if held is not None and self._shared is not None:
             await self._shared.hold(host, held)  # a little late, but before the held start
+        stats = self.stats
+        waiting = stats.clock()
         async with self.pacer.slot(host):
             turn = await self._shared.begin(host, self.pacer.interval(host)) if self._shared else ""
+            started, started_at = stats.clock(), now()
+            stats.waited(url, started - waiting)
+            answer: Answer | None = None
             try:
                 async with asyncio.timeout(self.limits.total_timeout):
                     answer = await get(
@@ -115,6 +131,10 @@ class PacedSender:
             except httpx.TransportError as exc:
                 raise Transient(url, f"network error: {exc}") from exc
             finally:
+                # The answer's own request time, so the snapshot archive's WARC-Date matches it.
+                sent_at = answer.request_time if answer is not None else started_at
+                status = answer.status if answer is not None else None
+                stats.request(url, sent_at, started, stats.clock(), status)
                 if self._shared is not None:
                     await self._shared.finish(host, turn)
         if self.on_answer is not None:

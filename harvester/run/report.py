@@ -1,7 +1,9 @@
 """The run report: what happened to every table of a run, for people and for programs.
 
 People get one line per table (``Outcome.line``) and a count (``summary``); programs get JSON
-lines, kept under ``<archive>/runs/<run-id>.jsonl``.
+lines, kept under ``<archive>/runs/<run-id>.jsonl``: a header object (the run, and ``hosts``:
+per host origin, the fetcher's counts), then one object per table with ``"kind": "table"``,
+then one per request sent with ``"kind": "request"`` (``harvester.fetch.host_stats``).
 """
 
 from __future__ import annotations
@@ -16,12 +18,23 @@ from harvester.formats import tsv_field
 from harvester.store.layout import join, open_root
 from harvester.timestamps import rfc3339
 
-__all__ = ["Outcome", "RunReport", "Status", "summary", "write_report"]
+__all__ = [
+    "REQUEST_KIND",
+    "RUNS_DIR",
+    "TABLE_KIND",
+    "Outcome",
+    "RunReport",
+    "Status",
+    "summary",
+    "write_report",
+]
 
 Status = Literal["new", "unchanged", "refused", "failed", "skipped"]
 """What happened to a table: a new version, none needed, refused, failed, or skipped (a backfill
 found its partition already in the archive and asked for nothing)."""
 RUNS_DIR = "runs"
+TABLE_KIND = "table"  # the "kind" of an outcome's line
+REQUEST_KIND = "request"  # the "kind" of a request's line
 
 
 @dataclass(frozen=True)
@@ -72,7 +85,11 @@ class Outcome:
 
 @dataclass
 class RunReport:
-    """A whole run: its id, times and every table's outcome."""
+    """A whole run: its id, times, every table's outcome, and what each host saw of it.
+
+    ``hosts`` and ``requests`` are ``HostStats.to_report()``'s two values: the counts per host
+    origin, and one object per request sent (started_at, host, url, status, gap_seconds).
+    """
 
     run_id: str
     recipe: str
@@ -83,6 +100,8 @@ class RunReport:
     pages_planned: int = 0
     pages_done: int = 0
     interrupted_by: str | None = None  # "SIGINT" or "SIGTERM" when a signal stopped the run
+    hosts: dict[str, dict[str, object]] = field(default_factory=dict)
+    requests: list[dict[str, object]] = field(default_factory=list)
 
     @property
     def failed(self) -> bool:
@@ -90,7 +109,11 @@ class RunReport:
         return any(outcome.status in ("failed", "refused") for outcome in self.outcomes)
 
     def to_json_lines(self) -> str:
-        """The report as JSON lines: a header object, then one object per outcome."""
+        """The report as JSON lines: a header object, then one per outcome, one per request.
+
+        Outcome lines carry ``"kind": "table"`` and request lines ``"kind": "request"``, so a
+        reader tells them apart without guessing from their keys; the header has no kind.
+        """
         header = {
             "run_id": self.run_id,
             "recipe": self.recipe,
@@ -101,9 +124,17 @@ class RunReport:
             "pages_planned": self.pages_planned,
             "pages_done": self.pages_done,
             "interrupted_by": self.interrupted_by,
+            "hosts": self.hosts,
         }
         lines = [json.dumps(header)]
-        lines += [json.dumps(asdict(outcome), ensure_ascii=False) for outcome in self.outcomes]
+        lines += [
+            json.dumps({"kind": TABLE_KIND, **asdict(outcome)}, ensure_ascii=False)
+            for outcome in self.outcomes
+        ]
+        lines += [
+            json.dumps({"kind": REQUEST_KIND, **request}, ensure_ascii=False)
+            for request in self.requests
+        ]
         return "\n".join(lines) + "\n"
 
     def summary_line(self) -> str:
