@@ -178,6 +178,7 @@ class _Run:
         loop = asyncio.get_running_loop()
         if stop_on_sigterm and task is not None:
             loop.add_signal_handler(signal.SIGTERM, self._stop, task)
+        fetcher: Fetcher | None = None
         try:
             async with AsyncExitStack() as stack:
                 # The lock first: an archive that cannot be written stops the run before the
@@ -186,6 +187,7 @@ class _Run:
                 recorder = stack.enter_context(self._recorder())
                 if not isinstance(source, PageSource):
                     source = await stack.enter_async_context(source(recorder.keep))
+                fetcher = source if isinstance(source, Fetcher) else None
                 source = recorder.wrap(past_source(source, self.recipe.captures))
                 await self._walk(pages, source, writer)
         except asyncio.CancelledError:
@@ -194,6 +196,8 @@ class _Run:
         finally:
             if stop_on_sigterm:
                 loop.remove_signal_handler(signal.SIGTERM)
+            if fetcher is not None:  # an interrupted run keeps its counts too
+                self.report.hosts, self.report.requests = fetcher.stats.to_report()
 
     async def _walk(
         self, pages: Sequence[PlannedPage], source: PageSource, writer: ArchiveWriter

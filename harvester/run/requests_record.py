@@ -13,6 +13,7 @@ WARC-Date too) is taken from the run report, once.
 
 from __future__ import annotations
 
+import dataclasses
 import json
 from collections.abc import Iterable
 from dataclasses import dataclass
@@ -154,7 +155,7 @@ def request_history(
     kept = [
         request for request in _indexed(archive) if (request.url, request.started_at) not in known
     ]
-    every = sorted([*reported, *kept], key=lambda request: (request.started_at, request.url))
+    every = _joined(sorted([*reported, *kept], key=lambda r: (r.started_at, r.url)))
     chosen = tuple(
         request
         for request in every
@@ -162,6 +163,21 @@ def request_history(
         and (since is None or request.started_at >= since)
     )
     return RequestHistory(chosen, _summaries(chosen), runs)
+
+
+def _joined(requests: list[LoggedRequest]) -> list[LoggedRequest]:
+    """Each run's first request to a host, given the gap from the previous run's last request
+    there (from one start to the next, as for the snapshot index: an upper bound)."""
+    last: dict[str, datetime] = {}
+    joined = []
+    for request in requests:
+        before = last.get(request.host)
+        if request.gap_seconds is None and before is not None:
+            gap = round((request.started_at - before).total_seconds(), 6)
+            request = dataclasses.replace(request, gap_seconds=gap)
+        last[request.host] = request.started_at
+        joined.append(request)
+    return joined
 
 
 def _reported(archive: str) -> tuple[list[LoggedRequest], int]:
