@@ -12,7 +12,7 @@ from harvester.cli.common import DEFAULT_ARCHIVE, ArchiveOption, fail, usage
 from harvester.cli.render import table_to_rich
 from harvester.errors import HarvesterError
 from harvester.formats import json_value
-from harvester.run.report import Outcome
+from harvester.run.report import Outcome, summary
 
 __all__ = ["demo_command"]
 
@@ -86,6 +86,7 @@ def demo_command(
         for outcome in report.outcomes:
             typer.echo(outcome.line())
     _show_changes(archive, [o for report in done.reports for o in report.outcomes])
+    typer.echo(f"summary: {summary([o for report in done.reports for o in report.outcomes])}")
     for preview in previews:
         shown = [[json_value(value) for value in row] for row in preview.rows]
         table_to_rich(shown, preview.columns, sys.stdout, title=preview.title)
@@ -124,6 +125,14 @@ def _show_duckdb_query(archive: str) -> None:
         f"'{archive}/tables/league-standings/standings/*/version=*/part-0.parquet', "
         "hive_partitioning=true, hive_types={'season': BIGINT, 'version': BIGINT}, "
         'union_by_name=true) QUALIFY version = max(version) OVER (PARTITION BY season)"'
+    )
+    # pandas and pyarrow came with harvester: a query that needs nothing else installed.
+    folder = f"{archive}/tables/league-standings/standings"
+    typer.echo(
+        "or with the pandas and pyarrow harvester installed:\n"
+        f'  {sys.executable} -c "import pyarrow.dataset as ds; '
+        f"t = ds.dataset('{folder}', partitioning='hive').to_table().to_pandas(); "
+        "print(t[t.version == t.groupby('season').version.transform('max')])\""
     )
 
 

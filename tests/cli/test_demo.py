@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import shlex
+import subprocess
 from pathlib import Path
 
 from typer.testing import CliRunner
@@ -49,6 +51,12 @@ def test_demo_command_harvests_and_reads_back(tmp_path: Path) -> None:
     assert [line[1:] for line in first] == expected()
     assert {line[0] for line in first} == {"new"}
     assert "read_parquet(" in result.stdout  # shows how to read it without harvester
+    # The pandas one runs with what harvester installed: 8 seasons × 10 clubs, latest versions.
+    shown = result.stdout.splitlines()
+    query = shown[shown.index("or with the pandas and pyarrow harvester installed:") + 1]
+    ran = subprocess.run(shlex.split(query), capture_output=True, text=True, timeout=60)
+    assert ran.returncode == 0, ran.stderr
+    assert "[80 rows x" in ran.stdout
     again = CliRunner().invoke(app, ["demo", "--archive", str(tmp_path), "--rows", "2"])
     assert again.exit_code == 0, again.stderr
     # Nothing changed: the current season is unchanged, the backfill skips what it stored.
