@@ -182,7 +182,7 @@ def rows(table: pa.Table, columns: Sequence[str]) -> list[tuple[object, ...]]:
 
 
 def test_snippets_need_no_harvester() -> None:
-    for name in ("duckdb-latest", "polars-latest", "duckdb-kv", "duckdb-as-of"):
+    for name in ("duckdb-latest", "polars-latest", "pandas-latest", "duckdb-kv", "duckdb-as-of"):
         code = snippet(name)
         assert "import harvester" not in code and "from harvester" not in code
 
@@ -212,6 +212,19 @@ def test_polars_latest_snippet_matches_archive_read(
     assert rows(result, COLUMNS) == LATEST
     assert sorted(result.column_names) == sorted(ours.column_names)
     assert rows(result, ours.column_names) == rows(ours, ours.column_names)
+
+
+def test_pandas_latest_snippet_matches_archive_read(
+    archive: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.chdir(archive.parent)  # the snippet reads archive/… from the working folder
+    namespace: dict[str, object] = {}
+    exec(compile(snippet("pandas-latest"), "docs/archive.md:pandas-latest", "exec"), namespace)
+    players = namespace["players"]
+    result = pa.Table.from_pandas(players, preserve_index=False)
+    ours = Archive(str(archive)).read("league-players", "players")
+    assert rows(result, COLUMNS) == LATEST
+    assert sorted(result.column_names) == sorted(ours.column_names)
 
 
 def test_duckdb_as_of_query_matches_archive_read_as_of(
