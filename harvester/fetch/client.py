@@ -117,6 +117,7 @@ class Fetcher:
         on_wait: WaitAnnouncer = log_wait,
         state_dir: str | Path | None = None,
         on_answer: AnswerListener | None = None,
+        on_pace: WaitAnnouncer | None = None,
     ) -> None:
         self.identity = identity
         self.origin = origin  # what a network answer's capture says it came from
@@ -125,6 +126,7 @@ class Fetcher:
         self.limits = limits or FetchLimits()
         self.pacer = pacer or HostPacer()
         self.pacer.on_wait = on_wait  # long waits (over five seconds) are announced
+        self.pacer.on_pace = on_pace  # every wait, for a progress display
         self.retries = retries
         self.cache = HttpCache(Path(cache_dir) / "http") if cache_dir is not None else None
         self._robots_store = None

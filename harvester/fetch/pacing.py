@@ -88,6 +88,7 @@ class HostPacer:
         self.max_interval = max_interval
         self.failure_limit = failure_limit
         self.on_wait = on_wait  # the fetcher sets its announcer here
+        self.on_pace: WaitAnnouncer | None = None  # told of every wait, short ones too (progress)
         self.announce_after = announce_after
         self._clock = clock
         self._sleep = sleep
@@ -130,6 +131,8 @@ class HostPacer:
             # Waiting in a loop: a back-off may push the time on while this request waits.
             while (wait := self._earliest(state) - self._clock()) > 0:
                 self._announce(host, state, wait)
+                if self.on_pace is not None:
+                    self.on_pace(WaitNotice(describe(host), wait, self._why(state)))
                 await self._sleep(wait)
             start = self._clock()
             state.spread = 1.0 + self._random.uniform(0.0, self.jitter)
@@ -143,6 +146,13 @@ class HostPacer:
         if state.last_end is None:
             return state.hold_until
         return max(state.last_end + self._interval(state) * state.spread, state.hold_until)
+
+    def _why(self, state: _Host) -> str:
+        """A short reason for a wait: the pace, or what holds the host."""
+        pace = state.last_end is not None and (
+            state.hold_until < state.last_end + self._interval(state)
+        )
+        return "pace" if pace else state.hold_reason or "holding the host"
 
     def _announce(self, host: HostKey, state: _Host, wait: float) -> None:
         """Announce a long wait once: each hold once, each interval once per host."""

@@ -7,7 +7,8 @@ fills the provenance columns of each row; ``report`` keeps what happened to each
 from __future__ import annotations
 
 from harvester.run.captures import find_captures
-from harvester.run.harvest import harvest, live_source, page_request
+from harvester.run.harvest import harvest, live_source
+from harvester.run.pages import page_request
 from harvester.run.reparse import reparse
 from harvester.run.report import Outcome, RunReport, summary
 
