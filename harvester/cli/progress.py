@@ -14,9 +14,9 @@ Three ways of showing it, chosen once in the constructor:
   until one is done). A host with no planned pages, such as a web archive, gets a row counting
   its requests. Result lines are printed through the display, so they appear above it, whole:
   no markup, highlighting or emoji codes are read into them and they are never wrapped by us.
-- **Elsewhere** (a pipe, a file, a cron log), plain text with no control characters at all:
-  each result line as given, plus at most one progress line every ``plain_every`` seconds
-  (10 by default; None for none), e.g.
+- **Elsewhere** (a pipe, a file, a cron log, a terminal whose TERM is ``dumb``), plain text
+  with no control characters at all: each result line as given, plus at most one progress
+  line every ``plain_every`` seconds (10 by default; None for none), e.g.
   ``progress: 12/40 pages; http://127.0.0.1:8650 12/40, next request in 0.4 s``. There is no
   timer thread here: a progress line is written with the next event once the time has come,
   so a log never gains lines while the run is silent.
@@ -29,13 +29,13 @@ import os
 import sys
 import threading
 import time
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from types import TracebackType
 from typing import TextIO
 from urllib.parse import urlsplit
 
-from rich.console import Console, Group, RenderableType
+from rich.console import Console, ConsoleRenderable, Group, RenderableType
 from rich.live import Live
 from rich.table import Table
 from rich.text import Text
@@ -63,6 +63,20 @@ class _Host:
 
     def clear_wait(self) -> None:
         self.wait_seconds, self.wait_reason = 0.0, ""
+
+
+class _CurrentLive(Live):
+    """A live display drawn as it is now under every printed line, not as at the last refresh."""
+
+    def process_renderables(self, renderables: list[ConsoleRenderable]) -> list[ConsoleRenderable]:
+        with self._lock:
+            self._live_render.set_renderable(self.renderable)
+        return super().process_renderables(renderables)
+
+
+def _dumb(environment: Mapping[str, str]) -> bool:
+    """Whether the terminal says it cannot move the cursor, which a live display needs."""
+    return environment.get("TERM", "").lower() in ("dumb", "unknown")
 
 
 def _origin(url: str) -> str:
@@ -125,7 +139,7 @@ class RunProgress:
         is_terminal = stream.isatty() if terminal is None else terminal
         self._console: Console | None = None
         self._live: Live | None = None
-        if is_terminal and not quiet:
+        if is_terminal and not quiet and not _dumb(os.environ):
             self._console = Console(
                 file=stream,
                 force_terminal=True,
@@ -134,7 +148,7 @@ class RunProgress:
                 emoji=False,
                 highlight=False,
             )
-            self._live = Live(
+            self._live = _CurrentLive(
                 console=self._console,
                 get_renderable=self._render,
                 refresh_per_second=REFRESHES_PER_SECOND,
@@ -148,7 +162,7 @@ class RunProgress:
     def __enter__(self) -> RunProgress:
         self._started = self._last_plain = self._clock()
         if self._live is not None:
-            self._live.start()
+            self._live.start(refresh=True)
         return self
 
     def __exit__(
@@ -265,7 +279,8 @@ class RunProgress:
                 if host.planned:
                     pieces = [f"{host.origin} {host.done}/{host.planned}"]
                 else:
-                    pieces = [f"{host.origin} {host.requests} requests"]
+                    plural = "" if host.requests == 1 else "s"
+                    pieces = [f"{host.origin} {host.requests} request{plural}"]
                 wait = self._wait_text(host, now)
                 if wait:
                     pieces.append(wait)
