@@ -25,6 +25,7 @@ Three ways of showing it, chosen once in the constructor:
 
 from __future__ import annotations
 
+import math
 import os
 import sys
 import threading
@@ -93,7 +94,9 @@ def _origin(url: str) -> str:
 
 
 def _seconds(seconds: float) -> str:
-    """A duration for a glance: ``0.4 s``, ``12 s``, ``3 min 05 s``, ``2 h 10 min``."""
+    """A duration for a glance: ``0.4 s``, ``12 s``, ``3 min 05 s``, ``2 h 10 min``, ``endless``."""
+    if math.isinf(seconds):
+        return "endless"
     if seconds < 10:
         return f"{seconds:.1f} s"
     whole = round(seconds)

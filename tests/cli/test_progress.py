@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import io
+import math
 import os
 import termios
 import threading
@@ -251,3 +252,15 @@ def test_terminal_true_draws_on_any_stream() -> None:
     assert "\x1b[" in stream.getvalue()
     assert "1/10" in stream.getvalue()
     assert "kept\n" in stream.getvalue()
+
+
+def test_an_endless_wait_is_shown_as_such() -> None:
+    clock = FakeClock()
+    stream = io.StringIO()
+    with RunProgress([f"{SITE}/a"], stream=stream, clock=clock, plain_every=1) as progress:
+        progress.waiting(SITE, math.inf, "Retry-After")
+        clock.now = 1.0
+        progress.line("still waiting")
+    assert stream.getvalue() == (
+        "still waiting\nprogress: 0/1 pages; http://127.0.0.1:8650 0/1, Retry-After: endless\n"
+    )
