@@ -7,6 +7,7 @@ partition the archive lacks; ``reparse`` reads the snapshot archive. ``harvest``
 
 from __future__ import annotations
 
+import sys
 from collections.abc import Callable
 from pathlib import Path
 from typing import TYPE_CHECKING, Annotated, Any
@@ -23,10 +24,12 @@ from harvester.cli.common import (
     parse_assignments,
     usage,
 )
+from harvester.cli.progress import RunProgress
 from harvester.errors import HarvesterError
 from harvester.fetch.limits import MAX_WAIT_LIMIT
 
 if TYPE_CHECKING:
+    from harvester.fetch.waits import WaitNotice
     from harvester.recipe import Recipe
     from harvester.run.report import Outcome, RunReport
 
@@ -207,26 +210,44 @@ def _run_recipes(
         loaded = [load_recipe(file, overrides, lenient=several) for file in files]
         if several:
             _check_known(overrides, loaded)
+        every = bool(options.get("every_value"))
+        pages = [page.url for recipe in loaded for page in recipe.plan(every_value=every)]
         reports = []
-        for recipe in loaded:
-            source = StoredSource.from_cassette(replay) if replay is not None else None
-            reports.append(
-                harvest(
-                    recipe,
-                    source=source,
-                    snapshots=replay is None,  # a replayed capture names its record already
-                    on_outcome=_printer(show, quiet),
-                    stop_on_sigterm=True,
-                    on_wait=lambda notice: typer.echo(notice.line(), err=True),
-                    **options,
+        with RunProgress(
+            pages, stream=sys.stdout, quiet=quiet or not show, plain_every=None
+        ) as bar:
+            for recipe in loaded:
+                source = StoredSource.from_cassette(replay) if replay is not None else None
+                reports.append(
+                    harvest(
+                        recipe,
+                        source=source,
+                        snapshots=replay is None,  # a replayed capture names its record already
+                        on_outcome=_printer(show, quiet, bar),
+                        stop_on_sigterm=True,
+                        on_wait=_long_wait(bar),
+                        on_page=bar.page_done,
+                        on_request=bar.host_used,
+                        on_pace=lambda n: bar.waiting(n.host, n.seconds, n.reason),
+                        **options,
+                    )
                 )
-            )
     except HarvesterError as error:
         fail(error)
     for report in reports:
         _finish(report, show, quiet, fail_now=False)
     if any(report.failed for report in reports):
         raise typer.Exit(1)
+
+
+def _long_wait(bar: RunProgress) -> Callable[[WaitNotice], None]:
+    """Long waits on stderr — unless a live display shows every wait already."""
+
+    def announce(notice: WaitNotice) -> None:
+        if not bar.live:
+            typer.echo(notice.line(), err=True)
+
+    return announce
 
 
 def _check_known(overrides: dict[str, str], recipes: list[Recipe]) -> None:
@@ -237,14 +258,16 @@ def _check_known(overrides: dict[str, str], recipes: list[Recipe]) -> None:
             usage(f"--param {name}: none of the recipes has a parameter by that name")
 
 
-def _printer(show: bool, quiet: bool) -> Callable[[Outcome], None] | None:
+def _printer(show: bool, quiet: bool, bar: RunProgress) -> Callable[[Outcome], None] | None:
+    """Each table's line as it comes (failures only when quiet), above any live display."""
     if not show:
         return None
-    if quiet:
-        return lambda outcome: (
-            typer.echo(outcome.line()) if outcome.status in ("failed", "refused") else None
-        )
-    return lambda outcome: typer.echo(outcome.line())
+
+    def emit(outcome: Outcome) -> None:
+        if not quiet or outcome.status in ("failed", "refused"):
+            bar.line(outcome.line())
+
+    return emit
 
 
 def reparse_command(

@@ -162,6 +162,11 @@ class RunProgress:
                 redirect_stderr=stream is sys.stderr,
             )
 
+    @property
+    def live(self) -> bool:
+        """Whether a live display is drawn (a terminal, not quiet): waits show there."""
+        return self._live is not None
+
     def __enter__(self) -> RunProgress:
         self._started = self._last_plain = self._clock()
         if self._live is not None:
