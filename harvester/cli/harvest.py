@@ -104,7 +104,7 @@ def harvest_command(
     when nothing changed. A table that fails is reported and touches nothing. Every exchange is
     kept in ARCHIVE/snapshots (WARC). --replay answers from a cassette instead of the network:
     a page missing from it is that table's failed line. --param season=2019..2021 (or
-    2019,2021) plans those values. Several recipes, or a folder of them, run one after another.
+    2019,2021) plans those values. Several recipes, or a folder of them, run side by side.
     Exit status 1 when any table failed or was refused; 5 when the archive cannot be written;
     waits over five seconds are announced on stderr; 130 (Ctrl-C) or 143 (SIGTERM) when a
     signal stopped the run at a safe point, with the report kept.
@@ -198,9 +198,11 @@ def _run_recipes(
     replay: Path | None = None,
     **options: Any,
 ) -> None:
-    """Load every recipe first (a bad one stops all before anything is fetched), then run each."""
+    """Load every recipe first (a bad one stops all before anything is fetched), then run them:
+    side by side when live, one after another from a cassette."""
     from harvester.recipe import load_recipe
     from harvester.run import harvest
+    from harvester.run.harvest import harvest_all
     from harvester.snapshots.stored_source import StoredSource
 
     overrides = parse_assignments(param_values, "--param", "season=2024")
@@ -212,25 +214,25 @@ def _run_recipes(
             _check_known(overrides, loaded)
         every = bool(options.get("every_value"))
         pages = [page.url for recipe in loaded for page in recipe.plan(every_value=every)]
-        reports = []
-        with RunProgress(
-            pages, stream=sys.stdout, quiet=quiet or not show, plain_every=None
-        ) as bar:
-            for recipe in loaded:
+        reports: list[RunReport] = []
+        bar = RunProgress(pages, stream=sys.stdout, quiet=quiet or not show, plain_every=None)
+        hooks: dict[str, Any] = {
+            "on_outcome": _printer(show, quiet, bar),
+            "stop_on_sigterm": True,
+            "on_wait": _long_wait(bar),
+            "on_page": bar.page_done,
+            "on_request": bar.host_used,
+            "on_pace": lambda n: bar.waiting(n.host, n.seconds, n.reason),
+        }
+        with bar:
+            if several and replay is None:  # live: every recipe's hosts side by side
+                shared = {key: value for key, value in options.items() if key != "record"}
+                reports = harvest_all(loaded, **hooks, **shared)  # --record takes one recipe
+            for recipe in loaded if not reports else ():
                 source = StoredSource.from_cassette(replay) if replay is not None else None
+                # a replayed capture names its record already: no snapshot archive then
                 reports.append(
-                    harvest(
-                        recipe,
-                        source=source,
-                        snapshots=replay is None,  # a replayed capture names its record already
-                        on_outcome=_printer(show, quiet, bar),
-                        stop_on_sigterm=True,
-                        on_wait=_long_wait(bar),
-                        on_page=bar.page_done,
-                        on_request=bar.host_used,
-                        on_pace=lambda n: bar.waiting(n.host, n.seconds, n.reason),
-                        **options,
-                    )
+                    harvest(recipe, source=source, snapshots=replay is None, **hooks, **options)
                 )
     except HarvesterError as error:
         fail(error)

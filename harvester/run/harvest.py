@@ -20,6 +20,7 @@ from collections.abc import Callable, Sequence
 from contextlib import AsyncExitStack
 from datetime import UTC, datetime
 from pathlib import Path
+from typing import Any
 
 import httpx
 from pyarrow import fs as pafs
@@ -46,7 +47,7 @@ from harvester.snapshots.recorder import SnapshotRecorder
 from harvester.store.layout import join, open_root
 from harvester.store.writer import ArchiveWriter
 
-__all__ = ["harvest", "live_source", "local_folder"]
+__all__ = ["harvest", "harvest_all", "live_source", "local_folder"]
 
 
 def harvest(
@@ -94,16 +95,104 @@ def harvest(
     carrying the report. An archive that cannot be written stops the run with
     ArchiveUnwritableError; every other failure is one table's ``failed`` outcome.
     """
-    report = RunReport(uuid.uuid4().hex[:12], recipe.name, archive, datetime.now(UTC))
-    info = {
+    live = _live_factory(
+        recipe,
+        archive,
+        contact=contact,
+        mode=mode,
+        transport=transport,
+        max_wait=max_wait,
+        on_wait=on_wait,
+        on_request=on_request,
+        on_pace=on_pace,
+        use_cache=record is None,
+    )
+    run = _Run(recipe, archive, _new_report(recipe, archive), on_outcome,
+               _info(recipe, contact), record, snapshots, skip_stored)  # fmt: skip
+    run.on_page = on_page
+    (report,) = _execute([run], [live if source is None else source], every_value, stop_on_sigterm)
+    return report
+
+
+def harvest_all(
+    recipes: Sequence[Recipe],
+    *,
+    archive: str = "archive",
+    contact: str | None = None,
+    mode: FetchMode = "normal",
+    every_value: bool = False,
+    transport: httpx.AsyncBaseTransport | None = None,
+    on_outcome: Callable[[Outcome], None] | None = None,
+    stop_on_sigterm: bool = False,
+    max_wait: float | None = None,
+    on_wait: WaitAnnouncer = log_wait,
+    skip_stored: bool = False,
+    on_page: Callable[[str], None] | None = None,
+    on_request: Callable[[str], None] | None = None,
+    on_pace: WaitAnnouncer | None = None,
+) -> list[RunReport]:
+    """Run several recipes at once into one ``archive``, live: one report each.
+
+    Each recipe has its fetcher (its contact, delay and limits); the archive's lock, the
+    snapshot archive and the machine-wide pace per host are shared, so recipes on different
+    sites proceed side by side and recipes on one site take turns at its pace. The settings
+    and the interruption are as ``harvest``'s; RunInterrupted carries the first report.
+    """
+    if not recipes:
+        return []
+    runs: list[_Run] = []
+    lives: list[_Source] = []
+    for recipe in recipes:
+        run = _Run(recipe, archive, _new_report(recipe, archive), on_outcome,
+                   _info(recipe, contact), None, True, skip_stored)  # fmt: skip
+        run.on_page = on_page
+        runs.append(run)
+        lives.append(
+            _live_factory(
+                recipe,
+                archive,
+                contact=contact,
+                mode=mode,
+                transport=transport,
+                max_wait=max_wait,
+                on_wait=on_wait,
+                on_request=on_request,
+                on_pace=on_pace,
+                use_cache=True,
+            )
+        )
+    if runs:
+        names = [run.recipe.name for run in runs]
+        runs[0].info = {**runs[0].info, "recipe": ", ".join(names),
+                        "run-id": ", ".join(run.report.run_id for run in runs)}  # fmt: skip
+    return _execute(runs, lives, every_value, stop_on_sigterm)
+
+
+_Source = PageSource | Callable[[AnswerListener], Fetcher]
+
+
+def _new_report(recipe: Recipe, archive: str) -> RunReport:
+    return RunReport(uuid.uuid4().hex[:12], recipe.name, archive, datetime.now(UTC))
+
+
+def _info(recipe: Recipe, contact: str | None) -> dict[str, str]:
+    """The warcinfo fields of a run (the report's run id is added by ``_Run``)."""
+    return {
         "recipe": recipe.name,
         "recipe-sha256": recipe.sha256,
-        "run-id": report.run_id,
         "operator": _contact(recipe, contact) or "",
         "robots": "obey",  # WARC 1.1 §6.2's suggested warcinfo field: robots.txt is honoured
     }
-    run = _Run(recipe, archive, report, on_outcome, info, record, snapshots, skip_stored)
-    run.on_page = on_page
+
+
+def _live_factory(
+    recipe: Recipe,
+    archive: str,
+    *,
+    on_request: Callable[[str], None] | None,
+    **settings: Any,
+) -> Callable[[AnswerListener], Fetcher]:
+    """How to build the recipe's live fetcher once the recorder's listener is known."""
 
     def live(keep: AnswerListener) -> Fetcher:
         def on_answer(answer: Answer) -> None:
@@ -111,37 +200,82 @@ def harvest(
             if on_request is not None:
                 on_request(answer.url)
 
-        return live_source(
-            recipe,
-            archive,
-            contact=contact,
-            mode=mode,
-            transport=transport,
-            max_wait=max_wait,
-            on_wait=on_wait,
-            on_answer=on_answer,
-            use_cache=record is None,
-            on_pace=on_pace,
-        )
+        return live_source(recipe, archive, on_answer=on_answer, **settings)
 
+    return live
+
+
+def _execute(
+    runs: list[_Run], sources: list[_Source], every_value: bool, stop_on_sigterm: bool
+) -> list[RunReport]:
+    """Run ``runs`` together in one event loop; every report is written however they end."""
+    reports = [run.report for run in runs]
     try:
         with asyncio.Runner() as runner:
-            runner.run(run.go(live if source is None else source, every_value, stop_on_sigterm))
+            runner.run(_go(runs, sources, every_value, stop_on_sigterm))
     except KeyboardInterrupt:
-        report.interrupted_by = "SIGINT"
+        for report in reports:
+            report.interrupted_by = report.interrupted_by or "SIGINT"
     finally:
-        report.finished_at = datetime.now(UTC)
-        with contextlib.suppress(OSError):  # an unwritable archive already said why
-            write_report(archive, report)
-    if report.interrupted_by is not None:
+        for report in reports:
+            report.finished_at = datetime.now(UTC)
+            with contextlib.suppress(OSError):  # an unwritable archive already said why
+                write_report(report.archive, report)
+    stopped = next((report for report in reports if report.interrupted_by is not None), None)
+    if stopped is not None:
         raise RunInterrupted(
-            f"interrupted after {report.pages_done} of {report.pages_planned} pages"
-            f" ({report.interrupted_by})",
-            signal_name=report.interrupted_by,
-            report=report,
-            hint=f"run it again to go on; the report is in {archive}/runs/{report.run_id}.jsonl",
+            f"interrupted after {stopped.pages_done} of {stopped.pages_planned} pages"
+            f" ({stopped.interrupted_by})",
+            signal_name=stopped.interrupted_by or "SIGINT",
+            report=stopped,
+            hint=f"run it again to go on; the report is in {stopped.archive}/runs/"
+            f"{stopped.run_id}.jsonl",
         )
-    return report
+    return reports
+
+
+async def _go(
+    runs: list[_Run], sources: list[_Source], every_value: bool, stop_on_sigterm: bool
+) -> None:
+    """Walk every run's plan side by side, with one archive writer and one recorder."""
+    plans = [run.recipe.plan(every_value=every_value) for run in runs]
+    for run, pages in zip(runs, plans, strict=True):
+        run.report.pages_planned = len(pages)
+    task = asyncio.current_task()
+    loop = asyncio.get_running_loop()
+
+    def stop() -> None:
+        for run in runs:
+            run.report.interrupted_by = "SIGTERM"
+        if task is not None:
+            task.cancel()
+
+    if stop_on_sigterm and task is not None:
+        loop.add_signal_handler(signal.SIGTERM, stop)
+    fetchers: list[Fetcher | None] = [None] * len(runs)
+    try:
+        async with AsyncExitStack() as stack:
+            # The lock first: an archive that cannot be written stops the run before the
+            # fetcher makes its cache folder inside it.
+            writer = stack.enter_context(ArchiveWriter(runs[0].archive))
+            recorder = stack.enter_context(runs[0].recorder())
+            walks = []
+            for index, (run, source, pages) in enumerate(zip(runs, sources, plans, strict=True)):
+                if not isinstance(source, PageSource):
+                    source = await stack.enter_async_context(source(recorder.keep))
+                fetchers[index] = source if isinstance(source, Fetcher) else None
+                wrapped = recorder.wrap(past_source(source, run.recipe.captures))
+                walks.append(run.walk(pages, wrapped, writer))
+            await asyncio.gather(*walks)
+    except asyncio.CancelledError:
+        if runs[0].report.interrupted_by != "SIGTERM":
+            raise  # Ctrl-C: asyncio.Runner turns it into KeyboardInterrupt for harvest()
+    finally:
+        if stop_on_sigterm:
+            loop.remove_signal_handler(signal.SIGTERM)
+        for run, fetcher in zip(runs, fetchers, strict=True):
+            if fetcher is not None:  # an interrupted run keeps its counts too
+                run.report.hosts, run.report.requests = fetcher.stats.to_report()
 
 
 class _Run:
@@ -164,45 +298,11 @@ class _Run:
         self.archive = archive
         self.report = report
         self.on_outcome = on_outcome
-        self.info = info
+        self.info = {**info, "run-id": report.run_id}
         self.cassette = cassette
         self.snapshots = snapshots
 
-    async def go(
-        self,
-        source: PageSource | Callable[[AnswerListener], Fetcher],
-        every_value: bool,
-        stop_on_sigterm: bool,
-    ) -> None:
-        """Walk the plan; ``source`` is a page source, or how to build the live one."""
-        pages = self.recipe.plan(every_value=every_value)
-        self.report.pages_planned = len(pages)
-        task = asyncio.current_task()
-        loop = asyncio.get_running_loop()
-        if stop_on_sigterm and task is not None:
-            loop.add_signal_handler(signal.SIGTERM, self._stop, task)
-        fetcher: Fetcher | None = None
-        try:
-            async with AsyncExitStack() as stack:
-                # The lock first: an archive that cannot be written stops the run before the
-                # fetcher makes its cache folder inside it.
-                writer = stack.enter_context(ArchiveWriter(self.archive))
-                recorder = stack.enter_context(self._recorder())
-                if not isinstance(source, PageSource):
-                    source = await stack.enter_async_context(source(recorder.keep))
-                fetcher = source if isinstance(source, Fetcher) else None
-                source = recorder.wrap(past_source(source, self.recipe.captures))
-                await self._walk(pages, source, writer)
-        except asyncio.CancelledError:
-            if self.report.interrupted_by != "SIGTERM":
-                raise  # Ctrl-C: asyncio.Runner turns it into KeyboardInterrupt for harvest()
-        finally:
-            if stop_on_sigterm:
-                loop.remove_signal_handler(signal.SIGTERM)
-            if fetcher is not None:  # an interrupted run keeps its counts too
-                self.report.hosts, self.report.requests = fetcher.stats.to_report()
-
-    async def _walk(
+    async def walk(
         self, pages: Sequence[PlannedPage], source: PageSource, writer: ArchiveWriter
     ) -> None:
         """Every page, by a few workers side by side: each host's pacer keeps its requests one
@@ -232,7 +332,8 @@ class _Run:
             await asyncio.gather(*workers, return_exceptions=True)
             self.report.outcomes.sort(key=lambda outcome: order.get(outcome.url, len(order)))
 
-    def _recorder(self) -> SnapshotRecorder:
+    def recorder(self) -> SnapshotRecorder:
+        """The run's snapshot recorder (and cassette), opened now."""
         snapshots = local_folder(self.archive, SNAPSHOTS_DIR) if self.snapshots else None
         try:
             return SnapshotRecorder(
@@ -243,10 +344,6 @@ class _Run:
                 f"the snapshot archive cannot be opened: {exc}",
                 hint="check the archive folder's permissions and free space",
             ) from None
-
-    def _stop(self, task: asyncio.Task[None]) -> None:
-        self.report.interrupted_by = "SIGTERM"
-        task.cancel()
 
     def _add(self, outcome: Outcome) -> None:
         self.report.outcomes.append(outcome)

@@ -7,11 +7,13 @@ never by harvester's account of itself. Parameter ranges are inclusive (issue 11
 
 from __future__ import annotations
 
+import dataclasses
 import os
 import re
 import signal
 import subprocess
 import sys
+from collections.abc import Callable
 from pathlib import Path
 
 from typer.testing import CliRunner
@@ -20,6 +22,8 @@ from harvester.cli import app
 from harvester.demo.server import DemoServer
 from harvester.demo.tour import DEMO_ARCHIVE
 from harvester.demo.web_archive import DemoWebArchive
+from harvester.recipe import load_recipe
+from harvester.run.harvest import harvest_all
 
 RECIPES = Path(__file__).resolve().parents[2] / "recipes"
 RUNNER = CliRunner()
@@ -100,8 +104,9 @@ def test_several_recipes_or_a_folder_run_one_after_another(
               "--param", "season=2025..2026"],
     )  # fmt: skip
     assert done.exit_code == 0, done.stdout + done.stderr
-    # Folder order is file-name order: contracts, then standings.
-    assert [(table, season) for _, table, season in lines(done.stdout)] == [
+    # Folder order is file-name order (contracts, then standings); they run side by side, so
+    # their lines interleave as pages finish.
+    assert sorted((table, season) for _, table, season in lines(done.stdout)) == [
         ("league-contracts/contracts", 2025),
         ("league-contracts/contracts", 2026),
         ("league-standings/standings", 2025),
@@ -168,3 +173,26 @@ def test_a_backfill_killed_with_sigkill_fetches_nothing_again_when_resumed(
         assert season not in memento_seasons(demo_archive, "standings.html")
     versions = sorted((tmp_path / "archive" / "tables").glob("*/*/season=*/version=*"))
     assert [path.name for path in versions] == ["version=1"] * 11  # each season stored once
+
+
+def test_recipes_on_different_sites_proceed_side_by_side(
+    tmp_path: Path, demo_site_factory: Callable[..., DemoServer]
+) -> None:
+    first, second = demo_site_factory(), demo_site_factory()  # two hosts (RFC 9309 §2.3: ports)
+    recipes = []
+    for name, site in (("north-standings", first), ("south-standings", second)):
+        loaded = load_recipe(
+            RECIPES / "league-standings.toml", {"site": site.base_url, "season": "2024..2026"}
+        )
+        fetch = dataclasses.replace(loaded.fetch, delay=0.2)
+        recipes.append(dataclasses.replace(loaded, name=name, fetch=fetch))
+    reports = harvest_all(recipes, archive=str(tmp_path / "archive"))
+    assert [[o.status for o in report.outcomes] for report in reports] == [["new"] * 3] * 2
+    # Judged by the servers' own clocks: each site's requests began before the other's ended.
+    spans = [
+        (min(r.wall for r in site.log), max(r.wall for r in site.log)) for site in (first, second)
+    ]
+    assert spans[0][0] < spans[1][1] and spans[1][0] < spans[0][1]
+    assert first.violations() == [] and second.violations() == []
+    # One archive, one lock: both recipes' reports are kept.
+    assert len(list((tmp_path / "archive" / "runs").glob("*.jsonl"))) == 2
