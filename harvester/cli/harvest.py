@@ -2,7 +2,8 @@
 
 ``harvest`` fetches politely (or replays a cassette); ``backfill`` harvests every planned
 partition the archive lacks; ``reparse`` reads the snapshot archive. ``harvest`` and
-``backfill`` take several recipes, or folders of them, run one after another.
+``backfill`` take several recipes, or folders of them, run side by side (one after another
+from a cassette).
 """
 
 from __future__ import annotations
