@@ -58,7 +58,7 @@ class ColumnRule:
     link_of: str | None = None  # derived column: href of the cell in this column
     pattern: str | None = None  # regex applied to the href (first group, else whole match)
     true_values: tuple[str, ...] = ()  # for type "boolean": texts meaning true
-    person_key: bool = False  # accepted now; join keys arrive in a later issue
+    person_key: bool = False  # adds <name>_key, a person key (harvester.extract.keys)
 
 
 @dataclass(frozen=True)

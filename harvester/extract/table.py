@@ -34,6 +34,7 @@ from harvester.extract.headers import (
     is_group_label_row,
     rename_columns,
 )
+from harvester.extract.keys import key_column, person_keys
 from harvester.extract.locate import Page, locate_table
 from harvester.extract.rules import ColumnRule, TableRule
 from harvester.extract.values import convert_column
@@ -183,6 +184,9 @@ def _columns(
         if typed.markers is not None and column_rule is not None and column_rule.markers_to:
             columns.append(typed.markers)
             column_names.append(column_rule.markers_to)
+        if column_rule is not None and column_rule.person_key:
+            columns.append(person_keys(typed.values, name, where=f"table {rule.name!r}"))
+            column_names.append(key_column(name))
         for derived in rule.columns:
             if derived.link_of == name:
                 columns.append(_links(grid, body.source_rows, x, derived, base_url))
@@ -204,6 +208,8 @@ def _check_column_rules(rule: TableRule, names: Sequence[str], where: str) -> No
         added = [column.name] if column.link_of else []
         if column.markers_to:
             added.append(column.markers_to)
+        if column.person_key:
+            added.append(key_column(column.name))
         for new_name in added:
             if new_name in known:
                 raise ExtractError(
