@@ -26,8 +26,16 @@ import pyarrow as pa
 from anyascii import anyascii
 
 from harvester.errors import ExtractError
+from harvester.extract.rules import ColumnRule
 
-__all__ = ["SUFFIXES", "key_column", "person_key", "person_keys"]
+__all__ = [
+    "SUFFIXES",
+    "code_names",
+    "key_column",
+    "name_column",
+    "person_key",
+    "person_keys",
+]
 
 SUFFIXES = frozenset({"jr", "sr", "ii", "iii", "iv", "v"})
 _APOSTROPHES = re.compile(r"['\u2019\u02bc\u2018`´]")
@@ -70,11 +78,46 @@ def key_column(name: str) -> str:
     return f"{name}_key"
 
 
-def person_keys(values: pa.Array, name: str, *, where: str) -> pa.Array:
-    """The person keys of a text column's values (null stays null)."""
+def person_keys(
+    values: pa.Array, name: str, *, where: str, aliases: tuple[tuple[str, str], ...] = ()
+) -> pa.Array:
+    """The person keys of a text column's values (null stays null); a key that ``aliases``
+    names (a known variant, normalized) becomes its canonical key."""
     if not pa.types.is_string(values.type) and not pa.types.is_large_string(values.type):
         raise ExtractError(
             f"{where}: column {name!r} has person_key = true but holds {values.type}, not text",
             hint=f'declare {name} = {{ type = "text", person_key = true }}',
         )
-    return pa.array([person_key(value) for value in values.to_pylist()], type=pa.string())
+    canonical = dict(aliases)
+    keys = [person_key(value) for value in values.to_pylist()]
+    return pa.array([canonical.get(key, key) if key else key for key in keys], type=pa.string())
+
+
+def name_column(name: str) -> str:
+    """The name of the column a ``codes`` column adds: ``<name>_name``."""
+    return f"{name}_name"
+
+
+def code_names(values: pa.Array, rule: ColumnRule) -> tuple[pa.Array, str]:
+    """The canonical name of each code (null for a null cell), and a note naming the codes
+    the file does not list ('' when none): their rows' names are null, and said to be."""
+    names = dict(rule.code_names)
+    found: list[str | None] = []
+    unknown: dict[str, int] = {}
+    for value in values.to_pylist():
+        if value is None:
+            found.append(None)
+            continue
+        code = str(value).strip()
+        found.append(names.get(code))
+        if code not in names:
+            unknown[code] = unknown.get(code, 0) + 1
+    note = ""
+    if unknown:
+        listed = ", ".join(f"{code!r} ({count} row{'s' * (count > 1)})" for code, count
+                           in sorted(unknown.items()))  # fmt: skip
+        note = (
+            f"column {rule.name!r}: {len(unknown)} code(s) not in {rule.codes}: {listed};"
+            f" their {name_column(rule.name)} is null — add them to {rule.codes}"
+        )
+    return pa.array(found, type=pa.string()), note

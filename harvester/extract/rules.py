@@ -59,6 +59,8 @@ class ColumnRule:
     pattern: str | None = None  # regex applied to the href (first group, else whole match)
     true_values: tuple[str, ...] = ()  # for type "boolean": texts meaning true
     person_key: bool = False  # adds <name>_key, a person key (harvester.extract.keys)
+    codes: str | None = None  # a CSV of code,name beside the recipe: adds <name>_name
+    code_names: tuple[tuple[str, str], ...] = ()  # that file's (code, name) pairs, as loaded
 
 
 @dataclass(frozen=True)
@@ -91,6 +93,7 @@ class TableRule:
     infer_types: bool = True
     columns: tuple[ColumnRule, ...] = field(default=())
     key: tuple[str, ...] = ()
+    aliases: tuple[tuple[str, str], ...] = ()  # person-key variant → canonical key (aliases.csv)
 
     def column(self, name: str) -> ColumnRule | None:
         """The rule for the column called ``name``, if the recipe gives one."""

@@ -34,7 +34,7 @@ from harvester.extract.headers import (
     is_group_label_row,
     rename_columns,
 )
-from harvester.extract.keys import key_column, person_keys
+from harvester.extract.keys import code_names, key_column, name_column, person_keys
 from harvester.extract.locate import Page, locate_table
 from harvester.extract.rules import ColumnRule, TableRule
 from harvester.extract.values import convert_column
@@ -54,6 +54,7 @@ class ExtractedTable:
     in_comment: bool
     caption: str | None
     overlaps: int  # slots two cells claimed (HTML §4.9.12.1 table model errors)
+    notes: tuple[str, ...] = ()  # what a reader of the run should know (unknown codes)
 
 
 @dataclass
@@ -139,7 +140,8 @@ def _extract_table(
 
     body = _read_body(grid, header_indices, rule)
     body = _apply_row_drops(body, names, rule, where)
-    columns, column_names = _columns(grid, header_indices, body, names, rule, base_url)
+    notes: list[str] = []
+    columns, column_names = _columns(grid, header_indices, body, names, rule, base_url, notes)
     missing_keys = [key for key in rule.key if key not in column_names]
     if missing_keys:
         raise ExtractError(
@@ -155,6 +157,7 @@ def _extract_table(
         in_comment=located.in_comment,
         caption=grid.caption,
         overlaps=len(grid.overlaps),
+        notes=tuple(notes),
     )
 
 
@@ -165,8 +168,10 @@ def _columns(
     names: Sequence[str],
     rule: TableRule,
     base_url: str | None,
+    notes: list[str],
 ) -> tuple[list[pa.Array], list[str]]:
-    """The output columns and their names: group labels, typed columns, markers and links."""
+    """The output columns and their names: group labels, typed columns, markers, keys, code
+    names and links; ``notes`` gets what a reader of the run should know (unknown codes)."""
     columns: list[pa.Array] = []
     column_names: list[str] = []
     if rule.group_rows == "column" and any(group is not None for group in body.groups):
@@ -185,8 +190,17 @@ def _columns(
             columns.append(typed.markers)
             column_names.append(column_rule.markers_to)
         if column_rule is not None and column_rule.person_key:
-            columns.append(person_keys(typed.values, name, where=f"table {rule.name!r}"))
+            keys = person_keys(
+                typed.values, name, where=f"table {rule.name!r}", aliases=rule.aliases
+            )
+            columns.append(keys)
             column_names.append(key_column(name))
+        if column_rule is not None and column_rule.codes is not None:
+            named, unknown = code_names(typed.values, column_rule)
+            columns.append(named)
+            column_names.append(name_column(name))
+            if unknown:
+                notes.append(unknown)
         for derived in rule.columns:
             if derived.link_of == name:
                 columns.append(_links(grid, body.source_rows, x, derived, base_url))
@@ -210,6 +224,8 @@ def _check_column_rules(rule: TableRule, names: Sequence[str], where: str) -> No
             added.append(column.markers_to)
         if column.person_key:
             added.append(key_column(column.name))
+        if column.codes is not None:
+            added.append(name_column(column.name))
         for new_name in added:
             if new_name in known:
                 raise ExtractError(

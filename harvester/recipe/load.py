@@ -8,6 +8,7 @@ comes out is the ``model``'s ``Recipe``.
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 import re
 import tomllib
@@ -19,6 +20,7 @@ from typing import Any
 from harvester.config import config_path, config_table
 from harvester.fetch.web_archive import WebArchive
 from harvester.recipe.captures import read_captures
+from harvester.recipe.lookups import ALIASES_FILE, read_aliases, read_codes
 from harvester.recipe.model import FetchSettings, Parameter, Recipe, RecipeTable, StoreSettings
 from harvester.recipe.parameters import read_parameters, set_parameter
 from harvester.recipe.readers import Where, suggest
@@ -74,6 +76,7 @@ def load_recipe(
             "lower delay, or raise max_wait under [fetch] if the site really asks for that",
         )
     tables = _read_tables(data.get("tables"), where.at("tables"), fetch.url, names)
+    tables = _with_lookups(tables, Path(path), where)
     store = _read_store(data.get("store", {}), where.at("store"), names, tables, fetch.url)
     site, parameters = _apply_overrides(
         overrides or {}, about["site"], parameters, singles, where, lenient=lenient
@@ -143,6 +146,32 @@ def _read_toml(file: Path, where: Where) -> tuple[dict[str, Any], str]:
         )
         where.fail(f"invalid TOML at {place}: {problem}", hint)
     return data, hashlib.sha256(raw).hexdigest()
+
+
+def _with_lookups(
+    tables: tuple[RecipeTable, ...], recipe: Path, where: Where
+) -> tuple[RecipeTable, ...]:
+    """The tables with their code files read and the recipe's aliases.csv, when it exists."""
+    folder = recipe.parent
+    aliases_path = folder / ALIASES_FILE
+    aliases = read_aliases(aliases_path) if aliases_path.is_file() else ()
+    done = []
+    for table in tables:
+        columns = []
+        for column in table.rule.columns:
+            if column.codes is not None:
+                key = f"tables.{table.rule.name}.columns.{column.name}.codes"
+                if Path(column.codes).is_absolute() or ".." in Path(column.codes).parts:
+                    where.fail(
+                        f"{key}: {column.codes!r} must be a file name beside the recipe",
+                        'e.g. codes = "clubs.csv"',
+                    )
+                pairs = read_codes(folder / column.codes, key)
+                column = dataclasses.replace(column, code_names=pairs)
+            columns.append(column)
+        rule = dataclasses.replace(table.rule, columns=tuple(columns), aliases=aliases)
+        done.append(RecipeTable(rule, table.url))
+    return tuple(done)
 
 
 def _read_tables(

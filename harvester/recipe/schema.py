@@ -223,6 +223,7 @@ COLUMN_READERS: dict[str, Reader] = {
     "pattern": regex('"/players/(\\\\w+)"'),
     "true_values": text_list('["C"]', required=True),
     "person_key": boolean,
+    "codes": text('"clubs.csv"', required=True),
 }
 _SECTION_KEYS: dict[str, Sequence[str]] = {
     "[recipe]": list(RECIPE_READERS),

@@ -198,6 +198,8 @@ async def _harvest_capture(
         done = outcome(name, result.status, result.message, result.rows, result.version)
         if result.status == "new" and result.version > 1:
             done = dataclasses.replace(done, row_changes=_row_changes(report, recipe, name, where))
+        if extracted.notes:  # unknown codes: said in the table's line, never silently null
+            done = dataclasses.replace(done, notes=(*done.notes, *extracted.notes))
         outcomes[name] = done
     return lacking
 
