@@ -48,8 +48,9 @@ __all__ = [
 SCORER = "token_sort_ratio"  # the rapidfuzz.fuzz scorer; named in the JSON so a reader can redo it
 CANDIDATE_LIMIT = 3
 SUGGEST_THRESHOLD = 90.0
-"""Lowest score of a suggested alias: one letter dropped or added in a key of 5+ characters,
-or one letter changed in a key of 10+ (an Indel ratio: 100 · (1 − edits / total length))."""
+"""Lowest score of a suggested alias. The Indel ratio is 100 · (1 − edits / total length): one
+letter dropped or added reaches it from 10 characters in both keys together, one letter changed
+(two edits) from 20."""
 
 _RATE = re.compile(r"(?P<number>[0-9]+(?:\.[0-9]*)?|\.[0-9]+)\s*(?P<percent>%?)")
 
