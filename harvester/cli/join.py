@@ -98,7 +98,8 @@ def join_check_command(
     printed (on stderr with --format json).
 
     Exit status: 0 done; 1 the match rate is below --fail-under (equal passes); 2 bad usage (a
-    column or table name, --where, RATE, an existing --suggest file); 5 archive error.
+    malformed DATASET/TABLE, --on or --where, a missing column, a bad RATE, an existing --suggest
+    file); 5 archive error (no such dataset or table, a damaged file).
 
     Example: harvester join-check league-players/players league-contracts/contracts --on
     player_key --where season=2026 --fail-under 95%

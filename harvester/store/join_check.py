@@ -17,6 +17,7 @@ from collections import Counter
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from fractions import Fraction
+from os import PathLike, fspath
 from pathlib import Path
 
 import pyarrow as pa
@@ -228,22 +229,24 @@ def parse_rate(text: str) -> Fraction:
 
 
 def join_check(
-    archive: Archive | str,
-    left: str,
-    right: str,
+    archive: Archive | str | PathLike[str],
+    left: str | tuple[str, str],
+    right: str | tuple[str, str],
     on: str | tuple[str, str],
     where: Mapping[str, str] | None = None,
 ) -> JoinCheck:
-    """Compare the latest versions of two tables (``DATASET/TABLE``) on a key column.
+    """Compare the latest versions of two tables (``DATASET/TABLE`` or a pair) on a key column.
 
     ``on`` is one column for both sides, ``"LEFT=RIGHT"``, or a (left, right) pair. ``where``
     keeps the rows whose column (a partition key or data column) equals the value as text, on
     each side that has the column; a column neither side has is an error.
     """
-    store = archive if isinstance(archive, Archive) else Archive(archive)
+    store = archive if isinstance(archive, Archive) else Archive(fspath(archive))
     left_column, right_column = parse_on(on) if isinstance(on, str) else on
-    wanted = dict(where or {})
-    tables = [store.read(*parse_table(name)) for name in (left, right)]
+    wanted = {str(name): str(value) for name, value in (where or {}).items()}
+    sides = [parse_table(name) if isinstance(name, str) else name for name in (left, right)]
+    left, right = (f"{dataset}/{table}" for dataset, table in sides)
+    tables = [store.read(dataset, table) for dataset, table in sides]
     for name, table, column in zip((left, right), tables, (left_column, right_column), strict=True):
         if column not in table.column_names:
             raise JoinInputError(

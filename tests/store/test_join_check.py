@@ -314,3 +314,11 @@ def test_a_key_column_that_is_not_text_or_number_is_refused(tmp_path: Path) -> N
         writer.commit("d", "t", [], pa.table(data), provenance={"run_id": "run-1"})
     with pytest.raises(JoinInputError, match=r"d/t: column 'tags' \(list<.*>\) cannot be compared"):
         join_check(str(tmp_path), "d/t", "d/t", "tags")
+
+
+def test_tables_as_pairs_and_the_archive_as_a_path(root: str) -> None:
+    pairs = (("league-players", "players"), ("league-contracts", "contracts"))
+    found = join_check(Path(root), *pairs, "player_key=name_key", {"season": "2026"})
+    season = "season = 2026"
+    assert found.matched == duckdb_matched(root, season, season)
+    assert (found.left.table, found.right.table) == (PLAYERS, CONTRACTS)
