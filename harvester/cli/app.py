@@ -16,6 +16,7 @@ from harvester.cli.captures import captures_command
 from harvester.cli.demo import demo_command
 from harvester.cli.extract import extract_command
 from harvester.cli.harvest import backfill_command, harvest_command, reparse_command
+from harvester.cli.join import join_check_command
 from harvester.cli.recipes import check_command
 from harvester.cli.requests import requests_command
 from harvester.cli.robots import robots_command
@@ -78,6 +79,7 @@ app.command(name="requests")(requests_command)
 app.command(name="captures")(captures_command)
 app.command(name="versions")(versions_command)
 app.command(name="diff")(diff_command)
+app.command(name="join-check")(join_check_command)
 app.add_typer(snapshots_app, name="snapshots")
 
 
