@@ -26,6 +26,7 @@ from harvester.fetch.web_archive import OriginalRewrite, WebArchive
 from harvester.recipe import PlannedPage, Recipe, RecipeTable, load_recipe
 from harvester.run import Outcome, RunReport, find_captures, harvest, reparse
 from harvester.store.archive import Archive, VersionInfo
+from harvester.store.join_check import JoinCheck, join_check
 from harvester.store.partition_diff import PartitionDiff, diff_partition
 from harvester.store.writer import ArchiveWriter, CommitResult
 
@@ -44,6 +45,7 @@ __all__ = [
     "Fetcher",
     "HarvesterError",
     "Identity",
+    "JoinCheck",
     "OriginalRewrite",
     "Outcome",
     "PageRequest",
@@ -69,6 +71,7 @@ __all__ = [
     "extract_table",
     "find_captures",
     "harvest",
+    "join_check",
     "load_recipe",
     "read_page",
     "reparse",

@@ -11,6 +11,8 @@
     │   ├── FetchLimitError             a hard limit was hit (size, decompression, redirects, type)
     │   ├── HttpStatusError             the final answer was not a 2xx (carries the status)
     │   └── NotCachedError              --offline and the cache has no copy
+    ├── JoinInputError(ValueError)      a join check asked for a table, column, value or rate it
+    │                                   cannot use (bad usage, exit 2)
     ├── StoreError                      the archive could not be read or written
     │   └── ArchiveUnwritableError      the archive cannot be written at all: the run stops
     └── RunInterrupted                  SIGINT or SIGTERM stopped a run at a safe point
@@ -29,6 +31,7 @@ __all__ = [
     "HarvesterError",
     "HostPausedError",
     "HttpStatusError",
+    "JoinInputError",
     "NotCachedError",
     "RecipeError",
     "RobotsDisallowedError",
@@ -111,6 +114,12 @@ class HttpStatusError(FetchError):
     def __init__(self, message: str, *, url: str = "", status: int = 0, hint: str = "") -> None:
         super().__init__(message, url=url, hint=hint)
         self.status = status
+
+
+class JoinInputError(HarvesterError, ValueError):
+    """A join check was asked for a table, column, value or rate it cannot use (bad usage)."""
+
+    exit_code = 2
 
 
 class NotCachedError(FetchError):

@@ -24,7 +24,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 from rapidfuzz import fuzz, process
 
-from harvester.errors import HarvesterError
+from harvester.errors import JoinInputError
 from harvester.formats import tsv_field
 from harvester.store.archive import Archive
 
@@ -54,12 +54,6 @@ letter dropped or added reaches it from 10 characters in both keys together, one
 (two edits) from 20."""
 
 _RATE = re.compile(r"(?P<number>[0-9]+(?:\.[0-9]*)?|\.[0-9]+)\s*(?P<percent>%?)")
-
-
-class JoinInputError(HarvesterError, ValueError):
-    """A join check was asked for a table, column, value or rate it cannot use (bad usage)."""
-
-    exit_code = 2
 
 
 @dataclass(frozen=True)
