@@ -91,6 +91,7 @@ def demo_command(
         shown = [[json_value(value) for value in row] for row in preview.rows]
         table_to_rich(shown, preview.columns, sys.stdout, title=preview.title)
     _show_duckdb_query(archive)
+    _show_join_check(archive, season)
     if any(report.failed for report in done.reports):
         raise typer.Exit(1)
 
@@ -116,6 +117,29 @@ def _show_changes(archive: str, outcomes: list[Outcome], shown_rows: int = 3) ->
                 f"  … {len(lines) - 2 - shown_rows} more: harvester diff"
                 f" {outcome.dataset}/{outcome.table} {where} --archive {archive}"
             )
+
+
+def _show_join_check(archive: str, season: int | None, shown: int = 5) -> None:
+    """Players and contracts joined on their person keys: what would not match."""
+    from harvester.demo.league import build_league
+    from harvester.store.join_check import join_check
+
+    year = str(season if season is not None else build_league().latest)
+    try:
+        found = join_check(
+            archive, "league-players/players", "league-contracts/contracts", "player_key",
+            {"season": year},
+        )  # fmt: skip
+    except HarvesterError as error:
+        typer.echo(f"join check skipped: {error}")
+        return
+    lines = found.text_lines()
+    typer.echo(f"players and contracts of {year} joined on player_key (docs/joins.md):")
+    typer.echo("\n".join(f"  {line}" for line in lines[: 1 + shown]))
+    typer.echo(
+        "  harvester join-check league-players/players league-contracts/contracts --on player_key"
+        f" --where season={year} --archive {archive}"
+    )
 
 
 def _show_duckdb_query(archive: str) -> None:
