@@ -23,6 +23,7 @@ from harvester.errors import HarvesterError
 __all__ = [
     "HEADER_REPEAT",
     "SEASON_PAGES",
+    "contract_name",
     "render_page",
     "render_season_page",
     "site_paths",
@@ -216,6 +217,23 @@ def _advanced(season: Season, pairs: list[tuple[Player, PlayerSeason]]) -> str:
     )
 
 
+ACCENTED_EVERY, ACCENTED_AT = 19, 3  # players whose number % 19 == 3: an accent on contracts
+MISSPELT_EVERY, MISSPELT_AT = 53, 7  # players whose number % 53 == 7: a first name cut short
+
+
+def contract_name(player: Player) -> str:
+    """How the contracts page writes a player: "Last, First", as clerks write names — with an
+    accent the players page leaves out for some (the same person once folded), and for a few
+    the first name missing its last letter (a true mismatch a join check should show)."""
+    number = int(player.player_id[1:])
+    last, first = player.last, player.first
+    if number % ACCENTED_EVERY == ACCENTED_AT:
+        last = last.replace("e", "\u00e9", 1) if "e" in last else last.replace("o", "\u00f6", 1)
+    if number % MISSPELT_EVERY == MISSPELT_AT and len(first) > 2:
+        first = first[:-1]
+    return f"{last}, {first}"
+
+
 def _render_contracts(league: League, season: Season) -> str:
     listed = []
     for contract in season.contracts:
@@ -226,7 +244,7 @@ def _render_contracts(league: League, season: Season) -> str:
     body = "".join(
         _row(
             [
-                escape(f"{player.last}, {player.first}"),
+                escape(contract_name(player)),
                 contract.club,
                 EM_DASH if contract.salary is None else f"${contract.salary:,}",
                 str(contract.years),

@@ -51,6 +51,9 @@ def test_demo_command_harvests_and_reads_back(tmp_path: Path) -> None:
     assert [line[1:] for line in first] == expected()
     assert {line[0] for line in first} == {"new"}
     assert "read_parquet(" in result.stdout  # shows how to read it without harvester
+    # The demo's contracts page writes two first names short (harvester/demo/pages.py,
+    # contract_name) and five with accents: the join check on person keys shows the two.
+    assert "  matched 138 keys; 2 left without a match, 2 right without a match" in result.stdout
     # The pandas one runs with what harvester installed: 8 seasons × 10 clubs, latest versions.
     shown = result.stdout.splitlines()
     query = shown[shown.index("or with the pandas and pyarrow harvester installed:") + 1]
