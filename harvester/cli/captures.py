@@ -3,12 +3,11 @@
 from __future__ import annotations
 
 import json
-from datetime import UTC, datetime
 from typing import Annotated
 
 import typer
 
-from harvester.cli.common import ContactOption, TextFormat, fail, usage
+from harvester.cli.common import ContactOption, TextFormat, fail, time_option
 from harvester.errors import HarvesterError
 from harvester.formats import tsv_field
 
@@ -59,7 +58,7 @@ def captures_command(
     from harvester.recipe.captures import archive_from_options
     from harvester.run.captures import capture_rows, find_captures
 
-    target = _parse_near(near) if near is not None else None
+    target = time_option("--near", near)
     try:
         archive = archive_from_options(timemap, timegate, rule, within)
         choice = find_captures(url, archive, target, contact=contact)
@@ -76,11 +75,3 @@ def captures_command(
         typer.echo("no captures listed", err=True)
     elif choice.chosen is None:
         typer.echo("no capture satisfies the rule and window", err=True)
-
-
-def _parse_near(text: str) -> datetime:
-    try:
-        moment = datetime.fromisoformat(text.strip())
-    except ValueError:
-        usage(f"--near {text!r} is not an ISO 8601 date or time; e.g. --near 2019-06-30")
-    return moment.replace(tzinfo=UTC) if moment.utcoffset() is None else moment.astimezone(UTC)

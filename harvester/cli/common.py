@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import sys
+from datetime import UTC, datetime
 from enum import StrEnum
 from pathlib import Path
 from typing import Annotated, NoReturn
@@ -20,6 +21,7 @@ __all__ = [
     "fail",
     "parse_assignments",
     "read_input",
+    "time_option",
     "usage",
 ]
 
@@ -54,6 +56,18 @@ def fail(error: HarvesterError) -> NoReturn:
     """Print a HarvesterError as one line and exit with its status (no traceback)."""
     typer.echo(f"error: {error}", err=True)
     raise typer.Exit(error.exit_code)
+
+
+def time_option(option: str, text: str | None) -> datetime | None:
+    """A time option as an aware UTC time: RFC 3339 or an ISO 8601 date or time (RFC 3339 §5.6
+    allows a lower-case t and z); one without an offset is UTC, a date is its midnight."""
+    if text is None:
+        return None
+    try:
+        moment = datetime.fromisoformat(text.strip().upper())
+    except ValueError:
+        usage(f"{option} {text!r}: not a date or time — write e.g. 2026-03-01 or 2026-03-01T12:00Z")
+    return moment.replace(tzinfo=UTC) if moment.utcoffset() is None else moment.astimezone(UTC)
 
 
 def usage(message: str) -> NoReturn:

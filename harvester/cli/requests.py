@@ -3,26 +3,14 @@
 from __future__ import annotations
 
 import json
-from datetime import UTC, datetime
 from typing import Annotated
 
 import typer
 
-from harvester.cli.common import DEFAULT_ARCHIVE, ArchiveOption, TextFormat, fail, usage
+from harvester.cli.common import DEFAULT_ARCHIVE, ArchiveOption, TextFormat, fail, time_option
 from harvester.errors import HarvesterError
 
 __all__ = ["requests_command"]
-
-
-def _since(text: str | None) -> datetime | None:
-    """``--since`` as an aware UTC time: RFC 3339 or ISO 8601, a time without offset being UTC."""
-    if text is None:
-        return None
-    try:
-        moment = datetime.fromisoformat(text.strip().upper())  # RFC 3339 §5.6 allows t and z
-    except ValueError:
-        usage(f"--since {text!r}: not a date or time — write e.g. 2026-03-01 or 2026-03-01T12:00Z")
-    return moment.replace(tzinfo=UTC) if moment.utcoffset() is None else moment.astimezone(UTC)
 
 
 def requests_command(
@@ -57,7 +45,7 @@ def requests_command(
     """
     from harvester.run.requests_record import request_history
 
-    moment = _since(since)
+    moment = time_option("--since", since)
     try:
         history = request_history(archive, host=host, since=moment)
     except HarvesterError as error:

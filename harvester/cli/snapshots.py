@@ -9,13 +9,12 @@ from __future__ import annotations
 
 import json
 import sys
-from datetime import UTC, datetime
 from pathlib import Path
 from typing import Annotated
 
 import typer
 
-from harvester.cli.common import DEFAULT_ARCHIVE, TextFormat, fail, usage
+from harvester.cli.common import DEFAULT_ARCHIVE, TextFormat, fail, time_option, usage
 from harvester.errors import HarvesterError, StoreError
 from harvester.formats import tsv_field
 
@@ -48,17 +47,6 @@ def _snapshots_dir(ctx: typer.Context, archive: str | None) -> Path:
     if folder is None:
         fail(StoreError(f"{root}: an archive on an object store keeps no snapshot archive"))
     return Path(folder)
-
-
-def _moment(option: str, text: str | None) -> datetime | None:
-    """A time given as RFC 3339 or as a date (midnight UTC)."""
-    if text is None:
-        return None
-    try:
-        moment = datetime.fromisoformat(text.strip().upper())
-    except ValueError:
-        usage(f"{option} {text!r}: not a date or time — write e.g. 2026-03-01 or 2026-03-01T12:00Z")
-    return moment.replace(tzinfo=UTC) if moment.utcoffset() is None else moment.astimezone(UTC)
 
 
 @snapshots_app.callback()
@@ -95,7 +83,9 @@ def snapshots_command(
     folder = _snapshots_dir(ctx, archive)
     try:
         entries = SnapshotIndex.load(folder).select(
-            url_contains=url, since=_moment("--since", since), until=_moment("--until", until)
+            url_contains=url,
+            since=time_option("--since", since),
+            until=time_option("--until", until),
         )
     except HarvesterError as error:
         fail(error)

@@ -8,7 +8,6 @@ compares whole rows when none were recorded.
 from __future__ import annotations
 
 import json
-from datetime import UTC, datetime
 from typing import Annotated
 
 import typer
@@ -19,6 +18,7 @@ from harvester.cli.common import (
     TextFormat,
     fail,
     parse_assignments,
+    time_option,
     usage,
 )
 from harvester.errors import HarvesterError
@@ -157,8 +157,8 @@ def _summarise(
             archive,
             dataset,
             table,
-            since=_moment(since, "--since"),
-            until=_moment(until, "--until"),
+            since=time_option("--since", since),
+            until=time_option("--until", until),
         )
     except HarvesterError as error:
         fail(error)
@@ -168,13 +168,3 @@ def _summarise(
     typer.echo(f"{dataset}/{table}: {len(changes)} partition(s) changed")
     for change in changes:
         typer.echo(change.line())
-
-
-def _moment(text: str | None, option: str) -> datetime | None:
-    if text is None:
-        return None
-    try:
-        moment = datetime.fromisoformat(text.strip())
-    except ValueError:
-        usage(f"{option} {text!r} is not an ISO 8601 date or time; e.g. {option} 2026-06-01")
-    return moment.replace(tzinfo=UTC) if moment.utcoffset() is None else moment.astimezone(UTC)
