@@ -13,12 +13,10 @@ import json
 from dataclasses import dataclass
 from datetime import datetime
 
-from pyarrow import fs as pafs
-
 from harvester.errors import StoreError
-from harvester.run.report import RUNS_DIR
+from harvester.run.report import RUNS_DIR, read_reports
 from harvester.store.archive import Archive, VersionInfo
-from harvester.store.layout import join, open_root, show_partition
+from harvester.store.layout import show_partition
 from harvester.store.partition_diff import PartitionDiff, diff_partition
 
 __all__ = ["PartitionChange", "changed_partitions", "latest_run_partitions"]
@@ -54,16 +52,8 @@ class PartitionChange:
 def latest_run_partitions(archive: str, dataset: str, table: str) -> dict[str, int] | None:
     """The partitions (as ``season=2026`` text) and versions the latest run that wrote a version
     of ``dataset/table`` committed, or None when no run report names one."""
-    filesystem, root = open_root(archive)
-    listing = filesystem.get_file_info(
-        pafs.FileSelector(join(root, RUNS_DIR), allow_not_found=True)
-    )
     best: tuple[str, dict[str, int]] | None = None
-    for info in listing:
-        if not info.base_name.endswith(".jsonl"):
-            continue
-        with filesystem.open_input_stream(info.path) as stream:
-            lines = stream.read().decode("utf-8", errors="replace").splitlines()
+    for _, lines in read_reports(archive):
         try:
             header = json.loads(lines[0]) if lines else {}
             outcomes = [json.loads(line) for line in lines[1:]]

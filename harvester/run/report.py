@@ -14,17 +14,21 @@ from dataclasses import asdict, dataclass, field
 from datetime import datetime
 from typing import Literal
 
+from pyarrow import fs as pafs
+
 from harvester.formats import tsv_field
 from harvester.store.layout import join, open_root
 from harvester.timestamps import rfc3339
 
 __all__ = [
+    "REPORT_SUFFIX",
     "REQUEST_KIND",
     "RUNS_DIR",
     "TABLE_KIND",
     "Outcome",
     "RunReport",
     "Status",
+    "read_reports",
     "summary",
     "write_report",
 ]
@@ -33,6 +37,7 @@ Status = Literal["new", "unchanged", "refused", "failed", "skipped"]
 """What happened to a table: a new version, none needed, refused, failed, or skipped (a backfill
 found its partition already in the archive and asked for nothing)."""
 RUNS_DIR = "runs"
+REPORT_SUFFIX = ".jsonl"
 TABLE_KIND = "table"  # the "kind" of an outcome's line
 REQUEST_KIND = "request"  # the "kind" of a request's line
 
@@ -155,5 +160,22 @@ def write_report(archive: str, report: RunReport) -> None:
     filesystem, root = open_root(archive)
     folder = join(root, RUNS_DIR)
     filesystem.create_dir(folder, recursive=True)
-    with filesystem.open_output_stream(join(folder, f"{report.run_id}.jsonl")) as out:
+    with filesystem.open_output_stream(join(folder, report.run_id + REPORT_SUFFIX)) as out:
         out.write(report.to_json_lines().encode("utf-8"))
+
+
+def read_reports(archive: str) -> list[tuple[str, list[str]]]:
+    """Every run report under ``<archive>/runs/``, in file-name order: its path and its lines
+    (undecoded bytes replaced: a report cut short by a crash is still read)."""
+    filesystem, root = open_root(archive)
+    selector = pafs.FileSelector(join(root, RUNS_DIR), allow_not_found=True)
+    files = sorted(
+        info.path
+        for info in filesystem.get_file_info(selector)
+        if info.is_file and info.base_name.endswith(REPORT_SUFFIX)
+    )
+    reports = []
+    for path in files:
+        with filesystem.open_input_stream(path) as stream:
+            reports.append((path, stream.read().decode("utf-8", errors="replace").splitlines()))
+    return reports

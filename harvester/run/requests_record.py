@@ -27,7 +27,7 @@ from pyarrow import fs as pafs
 from harvester.errors import StoreError
 from harvester.fetch.pacing import describe, host_key
 from harvester.formats import tsv_field
-from harvester.run.report import REQUEST_KIND, RUNS_DIR
+from harvester.run.report import REQUEST_KIND, RUNS_DIR, read_reports
 from harvester.snapshots.entry import SNAPSHOTS_DIR
 from harvester.snapshots.index import SnapshotIndex
 from harvester.store.layout import join, open_root
@@ -36,7 +36,6 @@ from harvester.timestamps import parse_rfc3339, rfc3339
 __all__ = ["HostRequests", "LoggedRequest", "RequestHistory", "host_matches", "request_history"]
 
 Source = Literal["run-report", "snapshot-index"]
-_REPORT_SUFFIX = ".jsonl"
 
 
 @dataclass(frozen=True)
@@ -182,21 +181,11 @@ def _joined(requests: list[LoggedRequest]) -> list[LoggedRequest]:
 
 def _reported(archive: str) -> tuple[list[LoggedRequest], int]:
     """The request lines of every run report, and the number of reports."""
-    filesystem, root = open_root(archive)
-    folder = join(root, RUNS_DIR)
-    if filesystem.get_file_info(folder).type != pafs.FileType.Directory:
-        return [], 0
-    files = sorted(
-        info.path
-        for info in filesystem.get_file_info(pafs.FileSelector(folder))
-        if info.is_file and info.base_name.endswith(_REPORT_SUFFIX)
-    )
+    reports = read_reports(archive)
     requests: list[LoggedRequest] = []
-    for path in files:
-        with filesystem.open_input_stream(path) as stream:
-            text = stream.read().decode("utf-8", errors="replace")
-        requests += _report_requests(path, text.splitlines())
-    return requests, len(files)
+    for path, lines in reports:
+        requests += _report_requests(path, lines)
+    return requests, len(reports)
 
 
 def _report_requests(path: str, lines: list[str]) -> list[LoggedRequest]:
