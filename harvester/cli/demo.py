@@ -104,9 +104,10 @@ def _show_changes(archive: str, outcomes: list[Outcome], shown_rows: int = 3) ->
     for outcome in outcomes:
         if outcome.row_changes is None:
             continue
-        wanted = {k: None if v is None else str(v) for k, v in outcome.partition.items()}
         try:
-            found = diff_partition(Archive(archive), outcome.dataset, outcome.table, wanted)
+            found = diff_partition(
+                Archive(archive), outcome.dataset, outcome.table, outcome.partition
+            )
         except HarvesterError:
             continue
         lines = found.text_lines()

@@ -114,9 +114,8 @@ def changed_partitions(
     for before, after in sorted(chosen, key=lambda pair: show_partition(pair[1].partition)):
         diff = None
         if before is not None:
-            wanted_partition = {key: value for key, value in after.partition}
             diff = diff_partition(
-                store, dataset, table, wanted_partition, before.version, after.version
+                store, dataset, table, dict(after.partition), before.version, after.version
             )
         changes.append(PartitionChange(before, after, diff))
     return changes

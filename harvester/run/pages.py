@@ -208,9 +208,8 @@ def _row_changes(
     report: RunReport, recipe: Recipe, table: str, partition: dict[str, int | str | None]
 ) -> dict[str, int] | None:
     """Rows added, removed and changed (by the recorded key) from the previous version."""
-    wanted = {key: None if value is None else str(value) for key, value in partition.items()}
     try:
-        found = diff_partition(Archive(report.archive), recipe.name, table, wanted)
+        found = diff_partition(Archive(report.archive), recipe.name, table, partition)
     except HarvesterError:
         return None  # the new version is published; a diff that cannot be read is no failure
     counts = found.diff.counts

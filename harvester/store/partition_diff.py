@@ -59,17 +59,19 @@ def diff_partition(
     archive: Archive,
     dataset: str,
     table: str,
-    partition: Mapping[str, str | None],
+    partition: Mapping[str, str | int | None],
     from_version: int | None = None,
     to_version: int | None = None,
 ) -> PartitionDiff:
-    """Diff two versions of the one partition ``partition`` names (some keys may be left out).
+    """Diff two versions of the one partition ``partition`` names (some keys may be left out;
+    values compare as the folder's text, so a run's ``{"season": 2026}`` names one too).
 
     ``to_version`` defaults to the latest, ``from_version`` to the one before it. Raises
     StoreError naming what exists when the partition or a version is not there.
     """
     name = f"{dataset}/{table}"
-    history = _pick_partition(archive.versions(dataset, table), dict(partition), name)
+    wanted = {key: None if value is None else str(value) for key, value in partition.items()}
+    history = _pick_partition(archive.versions(dataset, table), wanted, name)
     where = name
     if history[0].partition:
         where += " " + show_partition(history[0].partition)
