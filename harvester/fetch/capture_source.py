@@ -223,12 +223,12 @@ class CaptureSource:
             notes.append("the archive sent no Memento-Datetime; the TimeMap's datetime is kept")
         signs = rewriting_signs(fetched.body, fetched.final_url, self.archive.hosts)
         if signs:
-            asked = "although the original was asked for" if wanted != memento.uri else ""
-            fix = "" if asked else "; set [captures] original to ask for the unmodified bytes"
-            notes.append(
-                f"looks rewritten by the web archive: {signs} link(s) point into it"
-                f"{' ' + asked if asked else ''}{fix}"
+            tail = (
+                " although the original was asked for"
+                if wanted != memento.uri
+                else "; set [captures] original to ask for the unmodified bytes"
             )
+            notes.append(f"looks rewritten by the web archive: {signs} link(s) point into it{tail}")
         # A replayed exchange keeps the origin of its store (cassette, snapshot archive).
         origin = "web-archive" if fetched.origin in ("live", "cache") else fetched.origin
         return replace(
@@ -257,11 +257,10 @@ class CaptureSource:
                 scope += f" within {describe_window(window)}"
         else:
             scope = f"within {describe_window(window)} of {when}" if window else f"near {when}"
-        first, last = choice.timemap.mementos[0], choice.timemap.mementos[-1]
+        held = choice.timemap.mementos
         return (
-            f"no capture {scope}: the web archive holds {len(choice.timemap.mementos)},"
-            f" from {_when(min(first, last, key=_datetime))}"
-            f" to {_when(max(first, last, key=_datetime))}"
+            f"no capture {scope}: the web archive holds {len(held)},"
+            f" from {_when(min(held, key=_datetime))} to {_when(max(held, key=_datetime))}"
         )
 
     def _none_hint(self) -> str:
