@@ -36,7 +36,7 @@ FormatOption = Annotated[TextFormat, typer.Option("--format", "-f", help="text o
 
 def _snapshots_dir(ctx: typer.Context, archive: str | None) -> Path:
     """ARCHIVE/snapshots, from this command's --archive, the group's, or the default."""
-    from harvester.run.harvest import local_folder
+    from harvester.run.runs import local_folder
     from harvester.snapshots.entry import SNAPSHOTS_DIR
 
     root = archive or (ctx.obj or {}).get("archive") or DEFAULT_ARCHIVE

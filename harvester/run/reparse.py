@@ -14,8 +14,9 @@ from pathlib import Path
 
 from harvester.errors import StoreError
 from harvester.recipe.model import Recipe
-from harvester.run.harvest import harvest, local_folder
+from harvester.run.harvest import harvest
 from harvester.run.report import Outcome, RunReport
+from harvester.run.runs import local_folder
 from harvester.snapshots.entry import SNAPSHOTS_DIR
 from harvester.snapshots.scan import index_missing
 from harvester.snapshots.stored_source import StoredSource
