@@ -56,6 +56,10 @@ LEAGUE_NAME = "Quellmark Regional Handball League"
 CONFERENCES: tuple[str, str] = ("North Conference", "South Conference")
 POSITIONS: tuple[str, ...] = ("GK", "LW", "RW", "LB", "CB", "RB", "PV")
 CLUBS_PER_CONFERENCE = 5
+JUNIOR_EVERY, JUNIOR_AT = (
+    37,
+    5,
+)  # players whose number % 37 == 5 are named after the one before, "Jr."
 
 
 @dataclass(frozen=True)
@@ -174,11 +178,16 @@ class _People:
             first, last = person_name(rng)
             if f"{first} {last}" not in self.names:
                 break
-        self.names.add(f"{first} {last}")
+        suffix = ""
+        number = len(self.players) + 1
+        if number % JUNIOR_EVERY == JUNIOR_AT and self.players and not self.players[-1].suffix:
+            # Named after the player created just before (the same squad's season): "Jr.".
+            first, last, suffix = self.players[-1].first, self.players[-1].last, "Jr."
+        self.names.add(f"{first} {last} {suffix}".rstrip())
         # Debut ages 18-30 in the first season (an established league), 18-22 afterwards.
         age = rng.randint(18, 30 if year == FIRST_SEASON else 22)
         born = date(year - age, rng.randint(1, 12), rng.randint(1, 28))
-        player = Player(f"p{len(self.players) + 1:04d}", first, last, born, position)
+        player = Player(f"p{number:04d}", first, last, born, position, suffix)
         self.players.append(player)
         self.by_id[player.player_id] = player
         return player.player_id

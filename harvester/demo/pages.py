@@ -223,14 +223,19 @@ MISSPELT_EVERY, MISSPELT_AT = 53, 7  # players whose number % 53 == 7: a first n
 
 def contract_name(player: Player) -> str:
     """How the contracts page writes a player: "Last, First", as clerks write names — with an
-    accent the players page leaves out for some (the same person once folded), and for a few
-    the first name missing its last letter (a true mismatch a join check should show)."""
+    accent the players page leaves out for some (the same person once folded), a suffix written
+    either way ("Last Jr., First" or "Last, First Jr", no period), and for a few the first name
+    missing its last letter (a true mismatch a join check should show)."""
     number = int(player.player_id[1:])
     last, first = player.last, player.first
     if number % ACCENTED_EVERY == ACCENTED_AT:
         last = last.replace("e", "\u00e9", 1) if "e" in last else last.replace("o", "\u00f6", 1)
     if number % MISSPELT_EVERY == MISSPELT_AT and len(first) > 2:
         first = first[:-1]
+    if player.suffix and number % 2:
+        return f"{last}, {first} {player.suffix.rstrip('.')}"
+    if player.suffix:
+        return f"{last} {player.suffix}, {first}"
     return f"{last}, {first}"
 
 

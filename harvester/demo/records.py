@@ -25,18 +25,24 @@ class Club:
 
 @dataclass(frozen=True)
 class Player:
-    """One player: stable id (``p`` + 4 digits), name, birth date and position."""
+    """One player: stable id (``p`` + 4 digits), name, birth date, position and a generational
+    suffix ("Jr." for a player named after an older one; empty for most)."""
 
     player_id: str
     first: str
     last: str
     born: date
     position: str
+    suffix: str = ""
 
     @property
     def name(self) -> str:
-        """The name as "First Last"."""
-        return f"{self.first} {self.last}"
+        """The name as "First Last", or "First Last Jr." with a suffix."""
+        return (
+            f"{self.first} {self.last} {self.suffix}"
+            if self.suffix
+            else f"{self.first} {self.last}"
+        )
 
 
 @dataclass(frozen=True)

@@ -6,6 +6,7 @@ import shlex
 import subprocess
 from pathlib import Path
 
+import duckdb
 from typer.testing import CliRunner
 
 from harvester.cli import app
@@ -54,6 +55,21 @@ def test_demo_command_harvests_and_reads_back(tmp_path: Path) -> None:
     # The demo's contracts page writes two first names short (harvester/demo/pages.py,
     # contract_name) and five with accents: the join check on person keys shows the two.
     assert "  matched 138 keys; 2 left without a match, 2 right without a match" in result.stdout
+    # Suffixes (common practice, no published source): "Last Jr., First" and "Last, First Jr"
+    # key to "first last jr", which the players page's "First Last Jr." shares, and which stays
+    # apart from the "first last" of the player named before; DuckDB reads our Parquet.
+    parquet = f"{tmp_path}/tables/league-%s/season=2026/version=1/part-0.parquet"
+    contracts_sql = f"read_parquet('{parquet % 'contracts/contracts'}')"
+    players_sql = f"read_parquet('{parquet % 'players/players'}')"
+    keys = duckdb.execute(
+        f"SELECT c.player, c.player_key, p.player_key FROM {contracts_sql} c LEFT JOIN"
+        f" (SELECT player_key FROM {players_sql}) p USING (player_key) WHERE c.player LIKE '%Jr%'"
+    ).fetchall()
+    assert {written.endswith(" Jr") for written, _, _ in keys} == {True, False}
+    assert all(key.endswith(" jr") and key == joined for _, key, joined in keys)
+    seniors = {key.removesuffix(" jr") for _, key, _ in keys}
+    found = duckdb.execute(f"SELECT DISTINCT player_key FROM {players_sql}").fetchall()
+    assert seniors <= {key for (key,) in found}
     # The pandas one runs with what harvester installed: 8 seasons × 10 clubs, latest versions.
     shown = result.stdout.splitlines()
     query = shown[shown.index("or with the pandas and pyarrow harvester installed:") + 1]

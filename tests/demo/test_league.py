@@ -57,9 +57,25 @@ def test_player_ids_and_names_are_unique_and_well_formed(league: League) -> None
     assert all(re.fullmatch(r"p\d{4}", pid) for pid in ids)
     names = [player.name for player in league.players]
     assert len(set(names)) == len(names)
-    assert all(re.fullmatch(r"[A-Z][a-z]+ [A-Z][a-z]+", name) for name in names)
+    assert all(re.fullmatch(r"[A-Z][a-z]+ [A-Z][a-z]+( Jr\.)?", name) for name in names)
     positions = {"GK", "LW", "RW", "LB", "CB", "RB", "PV"}
     assert {player.position for player in league.players} == positions
+
+
+def test_a_few_players_are_named_after_the_one_before_with_jr(league: League) -> None:
+    by_name = {player.name: player for player in league.players}
+    juniors = [player for player in league.players if player.suffix]
+    assert juniors and all(player.suffix == "Jr." for player in juniors)
+    for junior in juniors:
+        senior = by_name[f"{junior.first} {junior.last}"]  # "John Smith" beside "John Smith Jr."
+        assert int(senior.player_id[1:]) == int(junior.player_id[1:]) - 1
+    current = {row.player_id for row in league.seasons[-1].players}
+    both = [
+        j
+        for j in juniors
+        if j.player_id in current and by_name[f"{j.first} {j.last}"].player_id in current
+    ]
+    assert len(both) >= 2  # the current season's pages show both of a pair
 
 
 def test_each_club_has_fourteen_players_two_per_position(league: League) -> None:

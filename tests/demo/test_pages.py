@@ -216,7 +216,7 @@ def test_player_cells_link_and_mark_one_captain_per_club(players_html: str) -> N
         links = cell.findall("a")
         assert len(links) == 1 and cell.text is None
         assert re.fullmatch(r"/players/p\d{4}\.html", links[0].get("href"))
-        assert re.fullmatch(r"[A-Z][a-z]+ [A-Z][a-z]+", links[0].text)
+        assert re.fullmatch(r"[A-Z][a-z]+ [A-Z][a-z]+( Jr\.)?", links[0].text)
         assert links[0].tail in (None, "*")
         captains[club] += links[0].tail == "*"
     assert len(captains) == 10
@@ -333,13 +333,17 @@ def test_contracts_table(league: League, players_html: str) -> None:
     players = {row[0].rstrip("*"): row[1] for row in player_rows(players_html)}
     unknown = 0
     names = set()
-    accented, misspelt = [], []
+    accented, misspelt, suffixed = [], [], []
     for tr in contracts.find("tbody"):
         name, club, salary, years, expires = (td.text_content() for td in tr)
         assert tr[0].find("a") is None
-        written = re.fullmatch(r"(\w+), (\w+)", name)  # "Last, First"
-        assert written, name
-        last, first = written.groups()
+        # "Last, First"; a suffix either way: "Last Jr., First" or "Last, First Jr"
+        written = re.fullmatch(r"(\w+)( Jr\.)?, (\w+)( Jr)?", name)
+        assert written and not (written[2] and written[4]), name
+        last, first = written[1], written[3]
+        suffix = " Jr." if written[2] or written[4] else ""
+        if suffix:
+            suffixed.append(name)
         # The page writes a few names as a clerk might: an accent the players page leaves out
         # (NFKD folds it away, UAX #15), or a first name missing its last letter.
         folded = "".join(
@@ -347,12 +351,14 @@ def test_contracts_table(league: League, players_html: str) -> None:
         )
         if folded != last:
             accented.append(name)
-        if f"{first} {folded}" not in players:
-            (full,) = [p for p in players if p.startswith(first) and p.endswith(f" {folded}")]
+        if f"{first} {folded}{suffix}" not in players:
+            (full,) = [
+                p for p in players if p.startswith(first) and p.endswith(f" {folded}{suffix}")
+            ]
             misspelt.append(name)
             first = full.split(" ")[0]
-        names.add(f"{first} {folded}")
-        assert players[f"{first} {folded}"] == club
+        names.add(f"{first} {folded}{suffix}")
+        assert players[f"{first} {folded}{suffix}"] == club
         assert salary == EM_DASH or re.fullmatch(r"\$\d{1,3}(,\d{3})*", salary), salary
         unknown += salary == EM_DASH
         assert years in {"1", "2", "3", "4", "5"}
@@ -361,6 +367,10 @@ def test_contracts_table(league: League, players_html: str) -> None:
     assert names == set(players)
     assert 0 < unknown < 140 * 0.25
     assert len(accented) == 5 and len(misspelt) == 2  # the demo's join check shows these two
+    # Both ways of writing a suffix appear, and "John Smith" stands beside "John Smith Jr.".
+    assert any(n.endswith(" Jr") for n in suffixed)  # "Last, First Jr"
+    assert any(" Jr., " in n for n in suffixed)  # "Last Jr., First"
+    assert any(n.removesuffix(" Jr.") in names for n in names if n.endswith(" Jr."))
 
 
 # --- standings --------------------------------------------------------------------------------
