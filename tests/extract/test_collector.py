@@ -13,12 +13,11 @@ from collections.abc import Callable, Iterator
 from typing import Any
 
 import pytest
-from selectolax.lexbor import LexborNode
 
 import harvester.extract.table as table_module
 from harvester import ColumnRule, TableNotFoundError, TableRule, ValueParseError, extract_table
 from harvester.extract.collector import EXTRACTION_PAUSE
-from harvester.extract.grid import Grid, build_grid
+from harvester.extract.grid import Grid
 from harvester.extract.table import extract_grid
 
 PAGE = """
@@ -44,11 +43,13 @@ def seen_inside(monkeypatch: pytest.MonkeyPatch) -> list[bool]:
     """The collector's state each time an extraction reaches its grid step."""
     seen: list[bool] = []
 
-    def watched(table: LexborNode, *, drop_hidden: bool = False, **budget: Any) -> Grid:
-        seen.append(gc.isenabled())
-        return build_grid(table, drop_hidden=drop_hidden, **budget)
+    grid_step = table_module._grid  # the fast path or the DOM path, whichever reads the table
 
-    monkeypatch.setattr(table_module, "build_grid", watched)
+    def watched(*args: Any) -> Grid:
+        seen.append(gc.isenabled())
+        return grid_step(*args)
+
+    monkeypatch.setattr(table_module, "_grid", watched)
     return seen
 
 
@@ -143,13 +144,15 @@ def test_another_thread_finishing_first_does_not_switch_the_collector_on_under_t
     assert entered.wait(timeout=10)
     seen: list[bool] = []
 
-    def grid_step(table: LexborNode, *, drop_hidden: bool = False, **budget: Any) -> Grid:
+    reading = table_module._grid
+
+    def grid_step(*args: Any) -> Grid:
         release.set()  # the other extraction ends while this one is at its grid step
         other.join(timeout=10)
         seen.append(gc.isenabled())
-        return build_grid(table, drop_hidden=drop_hidden, **budget)
+        return reading(*args)
 
-    monkeypatch.setattr(table_module, "build_grid", grid_step)
+    monkeypatch.setattr(table_module, "_grid", grid_step)
     extract_table(PAGE)
     assert not other.is_alive()
     assert seen == [False]
