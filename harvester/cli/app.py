@@ -54,7 +54,9 @@ app = typer.Typer(
 
 def _version(value: bool) -> None:
     if value:
-        typer.echo(f"harvester {__version__}")
+        from harvester.extract.fastpath import path_status
+
+        typer.echo(f"harvester {__version__}\ntable extraction: {path_status()}")
         raise typer.Exit(0)
 
 
@@ -62,7 +64,12 @@ def _version(value: bool) -> None:
 def _main(
     version: Annotated[
         bool,
-        typer.Option("--version", callback=_version, is_eager=True, help="Print the version."),
+        typer.Option(
+            "--version",
+            callback=_version,
+            is_eager=True,
+            help="Print the version and the table-extraction path in use.",
+        ),
     ] = False,
 ) -> None:
     """A polite, cached web-table harvester with a snapshot archive."""

@@ -1238,6 +1238,17 @@ static PyMethodDef methods[] = {
 
 static struct PyModuleDef module = {
     PyModuleDef_HEAD_INIT, "_plaintable", "The compiled reader of plain HTML tables.", -1, methods,
+    NULL, NULL, NULL, NULL,
 };
 
-PyMODINIT_FUNC PyInit__plaintable(void) { return PyModule_Create(&module); }
+PyMODINIT_FUNC PyInit__plaintable(void) {
+    PyObject *m = PyModule_Create(&module);
+    if (!m) return NULL;
+    PyObject *names = Py_BuildValue("(sss)", "read_table", "scan_tables", "space_code_points");
+    if (!names || PyModule_AddObject(m, "__all__", names) < 0) {
+        Py_XDECREF(names);
+        Py_DECREF(m);
+        return NULL;
+    }
+    return m;
+}

@@ -24,33 +24,40 @@ _forced: str | None = None  # set by forced_path()
 
 
 def _load() -> tuple[ModuleType | None, str]:
-    """The extension module if it imports, else None and why not."""
+    """The extension module if it imports and passes its self-check, else None and why not."""
     try:
         from harvester.extract import _plaintable  # type: ignore[attr-defined]
     except ImportError as error:
         return None, f"the extension was not built ({error})"
+    # The reader collapses white space as str.split() does: its code points must be Python's
+    # (every white-space code point is at most U+3000, in every Unicode version so far).
+    python_spaces = {c for c in range(0x3001) if chr(c).isspace()}
+    if set(_plaintable.space_code_points()) != python_spaces:
+        return None, "the extension's white space differs from this Python's (rebuild it)"
     return _plaintable, ""
 
 
 _MODULE, _WHY_NOT = _load()
 
 
+def _choice() -> str:
+    return _forced or os.environ.get(PATH_ENV, "auto").strip().lower() or "auto"
+
+
 def fast_module() -> ModuleType | None:
     """The extension to use for this extraction, or None for the DOM path."""
-    choice = _forced or os.environ.get(PATH_ENV, "auto")
-    if choice == "dom":
-        return None
-    return _MODULE
+    return None if _choice() == "dom" else _MODULE
 
 
 def path_status() -> str:
     """One line: which extraction path is in use, and why."""
-    choice = _forced or os.environ.get(PATH_ENV, "auto")
+    choice = _choice()
     if choice == "dom":
         return f"DOM path only ({PATH_ENV}=dom)"
+    note = "" if choice == "auto" else f" ({PATH_ENV}={choice!r} is neither 'auto' nor 'dom')"
     if _MODULE is None:
-        return f"DOM path only: {_WHY_NOT}"
-    return "compiled fast path for plain tables, DOM path for the rest"
+        return f"DOM path only: {_WHY_NOT}{note}"
+    return f"compiled fast path for plain tables, DOM path for the rest{note}"
 
 
 @contextmanager
