@@ -3,14 +3,20 @@
 from __future__ import annotations
 import __future__
 
+import ast
 import importlib
 import pkgutil
 import types
+from pathlib import Path
 
 import harvester
 
+INIT = Path(harvester.__file__)
+
 
 def test_all_lists_exactly_the_public_names() -> None:
+    for name in harvester.__all__:
+        getattr(harvester, name)  # the public API loads on first use: load all of it
     public = {
         name
         for name, value in vars(harvester).items()
@@ -18,6 +24,34 @@ def test_all_lists_exactly_the_public_names() -> None:
         and not isinstance(value, types.ModuleType | __future__._Feature)
     }
     assert public | {"__version__"} == set(harvester.__all__)
+    assert set(harvester.__all__) <= set(dir(harvester))
+
+
+def _typed_exports() -> dict[str, str]:
+    """Name → module of the imports a type checker reads in ``harvester/__init__.py``."""
+    found: dict[str, str] = {}
+    for node in ast.parse(INIT.read_text(encoding="utf-8")).body:
+        if isinstance(node, ast.If) and ast.unparse(node.test) == "typing.TYPE_CHECKING":
+            for statement in node.body:
+                assert isinstance(statement, ast.ImportFrom) and statement.module
+                found.update({alias.name: statement.module for alias in statement.names})
+    return found
+
+
+def test_the_names_type_checkers_see_are_the_names_loaded() -> None:
+    typed = _typed_exports()
+    assert set(typed) | {"__version__"} == set(harvester.__all__)
+    for name, module in typed.items():
+        assert getattr(harvester, name) is getattr(importlib.import_module(module), name), name
+
+
+def test_an_unknown_name_is_an_attribute_error() -> None:
+    try:
+        harvester.no_such_name  # type: ignore[attr-defined]  # noqa: B018
+    except AttributeError as error:
+        assert "no_such_name" in str(error)
+    else:
+        raise AssertionError("harvester.no_such_name did not raise AttributeError")
 
 
 def test_every_module_declares_all_and_its_names_exist() -> None:

@@ -4,15 +4,16 @@ from __future__ import annotations
 
 import sys
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
 import typer
 
 from harvester.cli.common import DEFAULT_ARCHIVE, ArchiveOption, fail, usage
-from harvester.cli.render import table_to_rich
 from harvester.errors import HarvesterError
 from harvester.formats import json_value
-from harvester.run.report import Outcome, summary
+
+if TYPE_CHECKING:
+    from harvester.run.report import Outcome
 
 __all__ = ["demo_command"]
 
@@ -65,7 +66,9 @@ def demo_command(
 
     Example: harvester demo --archive /tmp/league-archive
     """
+    from harvester.cli.render import table_to_rich
     from harvester.demo.tour import DEMO_BACKFILL, preview_archive, run_demo, write_demo_site
+    from harvester.run.report import summary
 
     if serve:
         _serve_demo(port, crawl_delay)

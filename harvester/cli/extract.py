@@ -5,22 +5,15 @@ from __future__ import annotations
 import sys
 from enum import StrEnum
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
 import typer
 
 from harvester.cli.common import fail, read_input, usage
-from harvester.cli.render import (
-    grid_to_csv,
-    grid_to_json,
-    table_rows,
-    table_to_csv,
-    table_to_json,
-    table_to_rich,
-    write_parquet,
-)
 from harvester.errors import HarvesterError
-from harvester.extract.table import ExtractedTable, extract_grid, extract_table, read_page
+
+if TYPE_CHECKING:
+    from harvester.extract.table import ExtractedTable
 
 __all__ = ["OutputFormat", "extract_command"]
 
@@ -83,6 +76,7 @@ def extract_command(
 
     Example: harvester extract players.html --select "table#players" --header-rows 2 --format json
     """
+    from harvester.extract.table import extract_grid, extract_table, read_page
     from harvester.recipe import choose_table_rule, load_recipe
 
     chosen = output_format or (OutputFormat.table if sys.stdout.isatty() else OutputFormat.csv)
@@ -115,6 +109,8 @@ def extract_command(
 
 
 def _print_grid(slots: list[list[str]], chosen: OutputFormat) -> None:
+    from harvester.cli.render import grid_to_csv, grid_to_json, table_to_rich
+
     if chosen is OutputFormat.csv:
         grid_to_csv(slots, sys.stdout)
     elif chosen is OutputFormat.json:
@@ -124,6 +120,14 @@ def _print_grid(slots: list[list[str]], chosen: OutputFormat) -> None:
 
 
 def _print_table(result: ExtractedTable, chosen: OutputFormat, out: Path | None) -> None:
+    from harvester.cli.render import (
+        table_rows,
+        table_to_csv,
+        table_to_json,
+        table_to_rich,
+        write_parquet,
+    )
+
     if chosen is OutputFormat.csv:
         table_to_csv(result.table, sys.stdout)
     elif chosen is OutputFormat.json:

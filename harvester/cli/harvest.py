@@ -25,11 +25,11 @@ from harvester.cli.common import (
     parse_assignments,
     usage,
 )
-from harvester.cli.progress import RunProgress
 from harvester.errors import HarvesterError
 from harvester.fetch.limits import MAX_WAIT_LIMIT
 
 if TYPE_CHECKING:
+    from harvester.cli.progress import RunProgress
     from harvester.fetch.waits import WaitNotice
     from harvester.recipe import Recipe
     from harvester.run.report import Outcome, RunReport
@@ -201,6 +201,7 @@ def _run_recipes(
 ) -> None:
     """Load every recipe first (a bad one stops all before anything is fetched), then run them:
     side by side when live, one after another from a cassette."""
+    from harvester.cli.progress import RunProgress
     from harvester.recipe import load_recipe
     from harvester.run import harvest
     from harvester.run.harvest import harvest_all

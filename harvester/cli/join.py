@@ -20,15 +20,7 @@ from harvester.cli.common import (
     parse_assignments,
 )
 from harvester.errors import HarvesterError
-from harvester.store.join_check import (
-    SUGGEST_THRESHOLD,
-    join_check,
-    parse_on,
-    parse_rate,
-    percent,
-    refuse_existing,
-    write_aliases,
-)
+from harvester.store.join_options import SUGGEST_THRESHOLD
 
 __all__ = ["join_check_command"]
 
@@ -104,6 +96,15 @@ def join_check_command(
     Example: harvester join-check league-players/players league-contracts/contracts --on
     player_key --where season=2026 --fail-under 95%
     """
+    from harvester.store.join_check import join_check
+    from harvester.store.join_options import (
+        parse_on,
+        parse_rate,
+        percent,
+        refuse_existing,
+        write_aliases,
+    )
+
     pairs = parse_assignments(where, "--where", "season=2026")
     try:
         columns = parse_on(on)

@@ -23,10 +23,6 @@ from harvester.cli.common import (
 )
 from harvester.errors import HarvesterError
 from harvester.formats import tsv_field
-from harvester.store.archive import Archive
-from harvester.store.contract import NULL_SEGMENT
-from harvester.store.layout import show_partition
-from harvester.store.partition_diff import diff_partition
 from harvester.timestamps import rfc3339
 
 __all__ = ["diff_command", "versions_command"]
@@ -58,6 +54,9 @@ def versions_command(
 
     Example: harvester versions league-players/players --archive archive
     """
+    from harvester.store.archive import Archive
+    from harvester.store.layout import show_partition
+
     dataset, table = _split_target(target, table_required=False)
     try:
         infos = Archive(archive).versions(dataset, table)
@@ -114,6 +113,10 @@ def diff_command(
 
     Example: harvester diff league-players/players --partition season=2019 --from 1 --to 3
     """
+    from harvester.store.archive import Archive
+    from harvester.store.contract import NULL_SEGMENT
+    from harvester.store.partition_diff import diff_partition
+
     dataset, table = _split_target(target, table_required=True)
     assert table is not None
     if not partition and (since or until or _partitioned(archive, dataset, table)):
@@ -136,6 +139,8 @@ def diff_command(
 
 def _partitioned(archive: str, dataset: str, table: str) -> bool:
     """Whether the table has more than one partition (unreadable: let the diff say why)."""
+    from harvester.store.archive import Archive
+
     try:
         return len({info.partition for info in Archive(archive).versions(dataset, table)}) > 1
     except HarvesterError:
