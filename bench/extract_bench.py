@@ -3,10 +3,12 @@
 Builds one large page (5,000 body rows × 26 columns, a two-row header repeated every 20 body
 rows, about 2 MB) and times, as the median of several repeats in this one run:
   (a) bare lexbor parse of the bytes (selectolax.lexbor.LexborHTMLParser),
-  (b) our extraction of the same bytes to a typed Arrow table with collapsed headers,
+  (b) our extraction of the same bytes to a typed Arrow table with collapsed headers, on the
+      path in use (the compiled fast path where it is built: docs/extraction.md),
+  (b') the same on the DOM path alone (HARVESTER_EXTRACT_PATH=dom),
   (c) pandas.read_html(flavor="lxml") on the same text.
-It prints c/b (aim >= 8) and b/a (aim <= 2.5), and the peak resident memory of (b) measured in
-a fresh child process, as a multiple of the page size.
+It prints c/b (aim >= 8) and b/a (aim <= 2.5) for both paths, and the peak resident memory of
+(b) and (b') measured in a fresh child process, as a multiple of the page size.
 
 It also asks whether pausing the cyclic garbage collector is worth it: (d) the same extraction
 without the pause extract_table takes (harvester.extract.collector), with the collector running
@@ -28,6 +30,7 @@ from __future__ import annotations
 import argparse
 import gc
 import io
+import os
 import random
 import statistics
 import subprocess
@@ -186,8 +189,9 @@ print(before, status("VmHWM"))
 )
 
 
-def peak_memory_kib(data: bytes) -> tuple[int, int]:
-    """RSS before and peak RSS during one extraction of ``data`` (KiB), in a fresh process."""
+def peak_memory_kib(data: bytes, path: str = "auto") -> tuple[int, int]:
+    """RSS before and peak RSS during one extraction of ``data`` (KiB), in a fresh process,
+    on the extraction ``path`` ("auto" or "dom")."""
     with tempfile.NamedTemporaryFile(suffix=".html") as page:
         page.write(data)
         page.flush()
@@ -196,6 +200,7 @@ def peak_memory_kib(data: bytes) -> tuple[int, int]:
             capture_output=True,
             text=True,
             check=True,
+            env={**os.environ, "HARVESTER_EXTRACT_PATH": path},
         )
     before, after = out.stdout.split()
     return int(before), int(after)
@@ -280,6 +285,7 @@ def main() -> None:
     from selectolax.lexbor import LexborHTMLParser
 
     from harvester import TableRule, extract_table, read_page
+    from harvester.extract.fastpath import forced_path, path_status
     from harvester.extract.table import _extract_table  # the pipeline without the pause
 
     html = build_page(args.rows)
@@ -291,27 +297,35 @@ def main() -> None:
         f"page: {len(data) / 1e6:.2f} MB, {args.rows} body rows, {result.table.num_columns} columns"
     )
     print(f"ours: {result.table.num_rows} rows; pandas.read_html: {len(frames[0])} rows")  # type: ignore[arg-type]
+    print(f"extraction path: {path_status()}")
+
+    def on_the_dom_path() -> object:
+        with forced_path("dom"):
+            return extract_table(data, rule)
 
     def unpaused() -> object:
         return _extract_table(read_page(data), rule, None)
 
     # (a), (b), (d) and (e) run turn about, so the ratios between them compare like with like.
-    parse_times, our_times, running_times, off_times = alternating_times(
+    parse_times, our_times, dom_times, running_times, off_times = alternating_times(
         [
             lambda: LexborHTMLParser(data),
             lambda: extract_table(data, rule),  # bytes, as fetched
+            on_the_dom_path,
             unpaused,
             with_collector_off(unpaused),
         ],
         args.repeats,
     )
     parse, ours = statistics.median(parse_times), statistics.median(our_times)
+    dom = statistics.median(dom_times)
     reference = median_seconds(lambda: read_with_pandas(html), max(1, args.repeats // 2))
-    print(f"(a) bare lexbor parse      {parse * 1000:9.1f} ms")
-    print(f"(b) harvester extraction   {ours * 1000:9.1f} ms")
-    print(f"(c) pandas.read_html(lxml) {reference * 1000:9.1f} ms")
-    print(f"c/b = {reference / ours:.1f}   (aim >= 8)")
-    print(f"b/a = {ours / parse:.2f}   (aim <= 2.5)")
+    print(f"(a)  bare lexbor parse           {parse * 1000:9.1f} ms")
+    print(f"(b)  harvester, path in use      {ours * 1000:9.1f} ms")
+    print(f"(b') harvester, DOM path alone   {dom * 1000:9.1f} ms")
+    print(f"(c)  pandas.read_html(lxml)      {reference * 1000:9.1f} ms")
+    print(f"c/b  = {reference / ours:.1f}   c/b' = {reference / dom:.1f}   (aim >= 8)")
+    print(f"b/a  = {ours / parse:.2f}  b'/a = {dom / parse:.2f}   (aim <= 2.5)")
 
     report_collector(unpaused, running_times, off_times, args.repeats)
     report_memory(data, args.rows, args.memory_rows)
@@ -350,12 +364,15 @@ def report_memory(data: bytes, rows: int, memory_rows: int) -> None:
     """Print peak memory against page size, for the timed page and for a large one."""
     for count in (rows, memory_rows):
         page = data if count == rows else build_page(count).encode()
-        before, peak = peak_memory_kib(page)
-        print(
-            f"memory, {len(page) / 1e6:.1f} MB page: peak RSS {peak / 1024:.0f} MiB, "
-            f"{(peak - before) / 1024:.0f} MiB above the process before extraction; "
-            f"growth / page size = {(peak - before) * 1024 / len(page):.1f}   (aim <= 6)"
-        )
+        for path in ("auto", "dom"):
+            before, peak = peak_memory_kib(page, path)
+            which = "path in use" if path == "auto" else "DOM path"
+            print(
+                f"memory, {len(page) / 1e6:.1f} MB page, {which}: "
+                f"peak RSS {peak / 1024:.0f} MiB, {(peak - before) / 1024:.0f} MiB above the "
+                f"process before extraction; growth / page size = "
+                f"{(peak - before) * 1024 / len(page):.1f}   (aim <= 6)"
+            )
 
 
 if __name__ == "__main__":
