@@ -9,10 +9,13 @@
  *
  * It depends on no library's layout: only CPython's stable C API and the page's bytes.
  *
- *   scan_tables(data) -> list[int] | None
- *       the offset of every "<table" start tag the HTML tokenizer would see, in document order
- *       (None when the page has markup this scanner does not follow: foreign content with
- *       scripts, styles, CDATA or tables in it, plaintext, noscript, template).
+ *   scan_tables(data, noscript_raw) -> (list[int], list[bool]) | None
+ *       the offset of every "<table" start tag the HTML tokenizer would see, in document order,
+ *       and whether each opens while no other table is open (None when the page has markup
+ *       this scanner does not follow: foreign content with scripts, styles, CDATA or tables in
+ *       it, plaintext, template, a table in a select).
+ *   plain_extent(data, offset) -> (content, close, end) | None
+ *       whether the table at offset is plain, and where its content and end tag are.
  *   read_table(data, offset, max_slots, drop_hidden) -> tuple | None | int
  *       the grid of the table whose start tag is at offset; None when the table is not plain;
  *       -1 when the grid would pass max_slots (the DOM path then says so).
@@ -49,10 +52,11 @@ static int bytes_reserve(Bytes *b, Py_ssize_t extra) {
     return 0;
 }
 
-typedef struct {
-    Py_ssize_t text_start, text_len; /* into the text buffer */
-    Py_ssize_t href_start, href_len; /* href_start < 0: no link */
-    int colspan, rowspan; /* parsed as §2.3.4.2 with the clamps of §4.9.12.1 */
+typedef struct { /* 24 bytes: pages past 2 GB are not read here (read_table checks) */
+    uint32_t text_start, text_len; /* into the text buffer */
+    int32_t href_start;            /* into the links buffer; < 0: no link */
+    uint32_t href_len;
+    uint16_t colspan, rowspan; /* parsed as §2.3.4.2 with the clamps of §4.9.12.1 */
     char header;
 } CellRec;
 
@@ -256,6 +260,8 @@ typedef struct {
     Bytes links;     /* the href of each cell's first link, decoded, UTF-8 */
     Bytes attrs;     /* decoded attribute values of the current tag */
     int drop_hidden;
+    int check_only;  /* only say whether the table is plain: keep no cells, rows or texts */
+    const unsigned char *close; /* where the table's end tag starts, once read */
 } Reader;
 
 /* Append a decoded attribute value (from p to q) to r->attrs; -1 when not plain. */
@@ -532,9 +538,11 @@ static int read_cells(Reader *r, Table *tb) {
             }
             return -1;
         }
+        const unsigned char *tag_start = r->p;
         int status = read_tag(r, &t, NULL);
         if (status < 0) return status;
         if (r->drop_hidden && t.has_hidden_or_style) return -1;
+        if (t.end && t.id == T_TABLE) r->close = tag_start;
         int id = t.id;
 
         if (mode == IN_CELL || mode == IN_CAPTION) {
@@ -549,8 +557,8 @@ static int read_cells(Reader *r, Table *tb) {
                         if (t.has_href && mode == IN_CELL && cell.href_start < 0) {
                             /* The first link of the cell (cells.link_of: a[href]). */
                             if (bytes_reserve(&r->links, t.href_len) < 0) return -2;
-                            cell.href_start = r->links.len;
-                            cell.href_len = t.href_len;
+                            cell.href_start = (int32_t)r->links.len;
+                            cell.href_len = (uint32_t)t.href_len;
                             memcpy(r->links.data + r->links.len, r->attrs.data + t.href_start,
                                    (size_t)t.href_len);
                             r->links.len += t.href_len;
@@ -599,10 +607,15 @@ static int read_cells(Reader *r, Table *tb) {
             } else
                 return -1;
             /* Close the cell. */
-            cell.text_start = run.start;
-            cell.text_len = r->text.len - run.start;
-            VEC_PUSH(tb->cells, cell, memory);
-            tb->rows.items[tb->rows.len - 1].n_cells++;
+            cell.text_start = (uint32_t)run.start;
+            cell.text_len = (uint32_t)(r->text.len - run.start);
+            if (r->check_only) {
+                r->text.len = 0;
+                r->links.len = 0;
+            } else {
+                VEC_PUSH(tb->cells, cell, memory);
+                tb->rows.items[tb->rows.len - 1].n_cells++;
+            }
             mode = IN_ROW;
             depth = 0;
             a_open = 0;
@@ -686,6 +699,7 @@ static int read_cells(Reader *r, Table *tb) {
             }
             if (id == T_TR || mode == IN_GROUP) { /* a cell outside a row gets one (§13.2.6.4.13) */
                 RowRec row = {tb->cells.len, 0};
+                if (r->check_only) tb->rows.len = 0; /* counted by nobody: keep one slot */
                 VEC_PUSH(tb->rows, row, memory);
                 mode = IN_ROW;
                 if (id == T_TR) continue;
@@ -695,10 +709,10 @@ static int read_cells(Reader *r, Table *tb) {
             memset(&cell, 0, sizeof cell);
             cell.href_start = -1;
             cell.header = id == T_TH;
-            cell.colspan = parse_span(r->attrs.data + t.colspan_start, t.colspan_len,
-                                      t.has_colspan, 1, 1, MAX_COLSPAN);
-            cell.rowspan = parse_span(r->attrs.data + t.rowspan_start, t.rowspan_len,
-                                      t.has_rowspan, 1, 0, MAX_ROWSPAN);
+            cell.colspan = (uint16_t)parse_span(r->attrs.data + t.colspan_start, t.colspan_len,
+                                                t.has_colspan, 1, 1, MAX_COLSPAN);
+            cell.rowspan = (uint16_t)parse_span(r->attrs.data + t.rowspan_start, t.rowspan_len,
+                                                t.has_rowspan, 1, 0, MAX_ROWSPAN);
             mode = IN_CELL;
             run.start = r->text.len;
             run.pending_space = 0;
@@ -721,8 +735,8 @@ typedef struct {
 typedef struct {
     SlotRow *rows;
     Py_ssize_t n_rows, width, overlaps, max_slots;
-    Py_ssize_t *anchor_x, *anchor_y; /* per cell; anchor_x < 0: placed as a 1×1 cell */
-    int *span_w, *span_h;
+    int32_t *anchor_x, *anchor_y; /* per cell; anchor_x < 0: placed as a 1×1 cell */
+    int32_t *span_w, *span_h;
 } Placement;
 
 static int row_extend(SlotRow *row, Py_ssize_t len) {
@@ -798,10 +812,10 @@ static int place(Table *tb, Placement *pl) {
                         continue;
                     }
                     if (x + width > pl->width && (status = budget(pl, x + width)) < 0) goto done;
-                    pl->anchor_x[c] = x;
-                    pl->anchor_y[c] = y;
-                    pl->span_w[c] = (int)width;
-                    pl->span_h[c] = (int)height;
+                    pl->anchor_x[c] = (int32_t)x;
+                    pl->anchor_y[c] = (int32_t)y;
+                    pl->span_w[c] = (int32_t)width;
+                    pl->span_h[c] = (int32_t)height;
                     Py_ssize_t rows_now = grows ? 1 : height;
                     for (Py_ssize_t ry = y; ry < y + rows_now; ry++)
                         if ((status = claim(pl, c, x, width, ry)) < 0) goto done;
@@ -830,10 +844,40 @@ static int set_pair_item(PyObject *dict, Py_ssize_t x, Py_ssize_t y, PyObject *v
     return status;
 }
 
+/* Short texts repeat a great deal in statistics ("0", "12", "—"): one string object for each
+ * distinct short text keeps the grid's memory near the page's, not one object per slot. */
+#define SHARED_SLOTS 65536 /* a power of two; filled to half at most */
+#define SHARED_MAX_LEN 16
+typedef struct {
+    struct { const char *text; uint32_t len; PyObject *value; } slots[SHARED_SLOTS];
+    Py_ssize_t used;
+} Shared;
+
+static PyObject *shared_text(Shared *shared, const char *text, uint32_t len) {
+    if (len > SHARED_MAX_LEN) return PyUnicode_DecodeUTF8(text, len, "strict");
+    uint32_t hash = 2166136261u; /* FNV-1a */
+    for (uint32_t i = 0; i < len; i++) hash = (hash ^ (unsigned char)text[i]) * 16777619u;
+    for (uint32_t i = hash & (SHARED_SLOTS - 1);; i = (i + 1) & (SHARED_SLOTS - 1)) {
+        if (!shared->slots[i].value) {
+            PyObject *value = PyUnicode_DecodeUTF8(text, len, "strict");
+            if (value && shared->used < SHARED_SLOTS / 2) {
+                shared->slots[i].text = text;
+                shared->slots[i].len = len;
+                shared->slots[i].value = value; /* borrowed: each cell holds its own reference */
+                shared->used++;
+            }
+            return value;
+        }
+        if (shared->slots[i].len == len && memcmp(shared->slots[i].text, text, len) == 0)
+            return Py_NewRef(shared->slots[i].value);
+    }
+}
+
 static PyObject *grid_result(Reader *r, Table *tb, Placement *pl, PyObject *attributes) {
     PyObject *texts = NULL, *groups = NULL, *headers = NULL, *covered = NULL, *owners = NULL;
     PyObject *spans = NULL, *links = NULL, *caption = NULL, *empty = NULL, *result = NULL;
     PyObject **cell_text = NULL, **cell_link = NULL, **anchors = NULL;
+    Shared *shared = NULL;
     Py_ssize_t n_cells = tb->cells.len, width = pl->width;
     static PyObject *kinds[3];
     if (!kinds[0]) {
@@ -846,10 +890,11 @@ static PyObject *grid_result(Reader *r, Table *tb, Placement *pl, PyObject *attr
     cell_link = PyMem_Calloc((size_t)n_cells + 1, sizeof(PyObject *));
     anchors = PyMem_Calloc((size_t)n_cells + 1, sizeof(PyObject *));
     if (!cell_text || !cell_link || !anchors) { PyErr_NoMemory(); goto fail; }
+    shared = PyMem_Calloc(1, sizeof(Shared));
+    if (!shared) { PyErr_NoMemory(); goto fail; }
     for (Py_ssize_t c = 0; c < n_cells; c++) {
         CellRec *cell = &tb->cells.items[c];
-        cell_text[c] = PyUnicode_DecodeUTF8(r->text.data + cell->text_start, cell->text_len,
-                                            "strict");
+        cell_text[c] = shared_text(shared, r->text.data + cell->text_start, cell->text_len);
         if (!cell_text[c]) goto fail;
         if (cell->href_start >= 0) {
             cell_link[c] = PyUnicode_DecodeUTF8(r->links.data + cell->href_start,
@@ -954,6 +999,7 @@ fail:
         if (cell_link) Py_XDECREF(cell_link[c]);
         if (anchors) Py_XDECREF(anchors[c]);
     }
+    PyMem_Free(shared);
     PyMem_Free(cell_text);
     PyMem_Free(cell_link);
     PyMem_Free(anchors);
@@ -986,6 +1032,7 @@ static PyObject *read_table(PyObject *self, PyObject *args) {
     r.drop_hidden = drop_hidden;
     int status = -1;
     if (offset < 0 || offset + 6 > view.len || r.start[offset] != '<') goto not_plain;
+    if (view.len > 0x7FFFFFFF) goto not_plain; /* the cell records count in 32 bits */
     r.p = r.start + offset;
     Tag t;
     attributes = PyDict_New();
@@ -999,10 +1046,10 @@ static PyObject *read_table(PyObject *self, PyObject *args) {
     pl.n_rows = tb.rows.len;
     pl.max_slots = max_slots;
     pl.rows = PyMem_Calloc((size_t)pl.n_rows + 1, sizeof(SlotRow));
-    pl.anchor_x = PyMem_Malloc(sizeof(Py_ssize_t) * ((size_t)tb.cells.len + 1));
-    pl.anchor_y = PyMem_Malloc(sizeof(Py_ssize_t) * ((size_t)tb.cells.len + 1));
-    pl.span_w = PyMem_Malloc(sizeof(int) * ((size_t)tb.cells.len + 1));
-    pl.span_h = PyMem_Malloc(sizeof(int) * ((size_t)tb.cells.len + 1));
+    pl.anchor_x = PyMem_Malloc(sizeof(int32_t) * ((size_t)tb.cells.len + 1));
+    pl.anchor_y = PyMem_Malloc(sizeof(int32_t) * ((size_t)tb.cells.len + 1));
+    pl.span_w = PyMem_Malloc(sizeof(int32_t) * ((size_t)tb.cells.len + 1));
+    pl.span_h = PyMem_Malloc(sizeof(int32_t) * ((size_t)tb.cells.len + 1));
     if (!pl.rows || !pl.anchor_x || !pl.anchor_y || !pl.span_w || !pl.span_h) goto memory;
     for (Py_ssize_t c = 0; c < tb.cells.len; c++) pl.anchor_x[c] = -1;
     status = place(&tb, &pl);
@@ -1034,6 +1081,42 @@ error:
     PyMem_Free(r.links.data);
     PyMem_Free(r.attrs.data);
     Py_XDECREF(attributes);
+    PyBuffer_Release(&view);
+    return result;
+}
+
+/* Whether the table whose start tag is at `offset` is plain, without reading its grid: where its
+ * content starts, where its end tag starts and where that ends; None if it is not plain. */
+static PyObject *plain_extent(PyObject *self, PyObject *args) {
+    Py_buffer view;
+    Py_ssize_t offset;
+    if (!PyArg_ParseTuple(args, "y*n", &view, &offset)) return NULL;
+    Reader r;
+    Table tb;
+    memset(&r, 0, sizeof r);
+    memset(&tb, 0, sizeof tb);
+    r.start = view.buf;
+    r.end = r.start + view.len;
+    r.check_only = 1;
+    PyObject *result = NULL;
+    int status = -1;
+    Tag t;
+    if (offset >= 0 && offset + 6 <= view.len && r.start[offset] == '<') {
+        r.p = r.start + offset;
+        status = read_tag(&r, &t, NULL);
+        if (status == 0 && (t.id != T_TABLE || t.end)) status = -1;
+    }
+    Py_ssize_t content = r.p - r.start;
+    if (status == 0) status = read_cells(&r, &tb);
+    if (status == -2) PyErr_NoMemory();
+    else if (status < 0 || !r.close) result = Py_NewRef(Py_None);
+    else result = Py_BuildValue("(nnn)", content, r.close - r.start, r.p - r.start);
+    PyMem_Free(tb.cells.items);
+    PyMem_Free(tb.rows.items);
+    PyMem_Free(tb.groups.items);
+    PyMem_Free(r.text.data);
+    PyMem_Free(r.links.data);
+    PyMem_Free(r.attrs.data);
     PyBuffer_Release(&view);
     return result;
 }
@@ -1091,9 +1174,10 @@ static PyObject *scan_tables(PyObject *self, PyObject *args) {
     int noscript_raw;
     if (!PyArg_ParseTuple(args, "y*p", &view, &noscript_raw)) return NULL;
     const unsigned char *start = view.buf, *end = start + view.len, *p = start;
-    PyObject *found = PyList_New(0);
+    PyObject *found = PyList_New(0), *outermost = PyList_New(0);
     int foreign = 0, in_select = 0, unsure = 0;
-    if (!found) goto out;
+    Py_ssize_t depth = 0; /* tables open, by start and end tags (a stray end tag never below 0) */
+    if (!found || !outermost) goto fail;
     while (!unsure && (p = memchr(p, '<', (size_t)(end - p))) != NULL) {
         const unsigned char *q = p + 1;
         if (q >= end) break;
@@ -1152,6 +1236,7 @@ static PyObject *scan_tables(PyObject *self, PyObject *args) {
         if (!after) break;
         int self_closing = after - 2 >= name_end && after[-2] == '/';
         if (closing) {
+            if (!strcmp(tag, "table") && depth > 0) depth--;
             if (foreign && (!strcmp(tag, "svg") || !strcmp(tag, "math"))) foreign--;
             if (!strcmp(tag, "select")) in_select = 0;
             p = after;
@@ -1160,12 +1245,13 @@ static PyObject *scan_tables(PyObject *self, PyObject *args) {
         if (!strcmp(tag, "table")) {
             if (foreign || in_select) { unsure = 1; break; }
             PyObject *offset = PyLong_FromSsize_t(p - start);
-            if (!offset || PyList_Append(found, offset) < 0) {
+            if (!offset || PyList_Append(found, offset) < 0 ||
+                PyList_Append(outermost, depth == 0 ? Py_True : Py_False) < 0) {
                 Py_XDECREF(offset);
-                Py_CLEAR(found);
-                goto out;
+                goto fail;
             }
             Py_DECREF(offset);
+            depth++;
             p = after;
             continue;
         }
@@ -1204,14 +1290,16 @@ static PyObject *scan_tables(PyObject *self, PyObject *args) {
             p = close;
         }
     }
-    if (unsure) {
-        Py_DECREF(found);
-        found = Py_None;
-        Py_INCREF(found);
-    }
-out:
+    PyObject *result = unsure ? Py_NewRef(Py_None) : PyTuple_Pack(2, found, outermost);
+    Py_DECREF(found);
+    Py_DECREF(outermost);
     PyBuffer_Release(&view);
-    return found;
+    return result;
+fail:
+    Py_XDECREF(found);
+    Py_XDECREF(outermost);
+    PyBuffer_Release(&view);
+    return NULL;
 }
 
 static PyObject *space_code_points(PyObject *self, PyObject *unused) {
@@ -1228,9 +1316,11 @@ static PyObject *space_code_points(PyObject *self, PyObject *unused) {
 
 static PyMethodDef methods[] = {
     {"scan_tables", scan_tables, METH_VARARGS,
-     "scan_tables(data, noscript_raw) -> offsets of the table start tags, or None"},
+     "scan_tables(data, noscript_raw) -> (offsets, outermost flags) of the tables, or None"},
     {"read_table", read_table, METH_VARARGS,
      "read_table(data, offset, max_slots, drop_hidden) -> grid tuple, None or -1"},
+    {"plain_extent", plain_extent, METH_VARARGS,
+     "plain_extent(data, offset) -> (content, close, end) of a plain table, or None"},
     {"space_code_points", space_code_points, METH_NOARGS,
      "space_code_points() -> the code points collapsed as white space"},
     {NULL, NULL, 0, NULL},
@@ -1244,7 +1334,8 @@ static struct PyModuleDef module = {
 PyMODINIT_FUNC PyInit__plaintable(void) {
     PyObject *m = PyModule_Create(&module);
     if (!m) return NULL;
-    PyObject *names = Py_BuildValue("(sss)", "read_table", "scan_tables", "space_code_points");
+    PyObject *names = Py_BuildValue("(ssss)", "plain_extent", "read_table", "scan_tables",
+                                    "space_code_points");
     if (!names || PyModule_AddObject(m, "__all__", names) < 0) {
         Py_XDECREF(names);
         Py_DECREF(m);

@@ -45,18 +45,53 @@ class LocatedTable:
     in_comment: bool
 
 
+# Pseudo-classes that look at an element's content: on a page parsed without some tables'
+# content (``Page.hollow``) they could match differently, so such selectors run on the full page.
+_CONTENT_PSEUDO = re.compile(r":(?:has|empty|blank|contains|lexbor-contains)\b", re.I)
+
+
 class Page:
     """A parsed HTML page whose tables can be looked up by selector.
 
     ``html`` is text, or UTF-8 bytes (which lexbor reads as they are, sparing a decoded copy).
+    ``parsed``, when given, is what lexbor parses instead: ``html`` with the content of the
+    tables at the document-order positions ``hollow`` left out (plain_grid.py reads those from
+    ``html`` itself). :meth:`full` parses the whole page when something needs those tables' DOM.
     """
 
-    def __init__(self, html: str | bytes, source: str = "<page>") -> None:
+    def __init__(
+        self,
+        html: str | bytes,
+        source: str = "<page>",
+        *,
+        parsed: str | bytes | None = None,
+        hollow: frozenset[int] = frozenset(),
+    ) -> None:
         self.source = source
         self.html = html
-        self.document = LexborHTMLParser(html)
+        self.document = LexborHTMLParser(html if parsed is None else parsed)
+        self.hollow = hollow
+        self._full: Page | None = None
         self._uncommented: LexborHTMLParser | None = None
         self._uncommented_done = False
+
+    def full(self) -> Page:
+        """This page with every table's content in its DOM: itself unless some was left out."""
+        if not self.hollow:
+            return self
+        if self._full is None:
+            self._full = Page(self.html, self.source)
+        return self._full
+
+    def with_content(self, located: LocatedTable) -> LocatedTable:
+        """``located``, or the same table of :meth:`full` if its content was left out here."""
+        if not self.hollow or located.in_comment:
+            return located
+        ids = [node.mem_id for node in self.document.css("table")]
+        if located.node.mem_id not in ids or ids.index(located.node.mem_id) not in self.hollow:
+            return located
+        node = self.full().document.css("table")[ids.index(located.node.mem_id)]
+        return LocatedTable(node, located.index, located.in_comment)
 
     @property
     def uncommented(self) -> LexborHTMLParser | None:
@@ -78,6 +113,8 @@ class Page:
         A selector that names a non-table element (a wrapper ``div``, say) stands for the
         outermost tables inside it.
         """
+        if self.hollow and _CONTENT_PSEUDO.search(select):
+            return self.full().tables(select)
         found = [
             LocatedTable(node, 0, False)
             for node in _tables_for(self.document, select, self.source)
@@ -165,7 +202,8 @@ def locate_table(page: Page, select: str = "table", index: int | None = None) ->
     else:
         problem = f"selector {select!r} matched {len(matches)} tables"
         hint = "make the selector name one table, or give an index (--index N, index = N)"
-    listing = describe_candidates(matches or page.all_tables())
+    full = page.full()  # the listing describes each table's grid
+    listing = describe_candidates(full.tables(select) or full.all_tables())
     raise TableNotFoundError(f"{page.source}: {problem}; {listing}", hint=hint)
 
 

@@ -7,6 +7,14 @@ reader form its grid. It returns None — and the caller uses :func:`grid.build_
 reference — whenever the reader cannot be sure: a table that is not plain (see
 ``_plaintable.c``), a table from a comment, a page whose markup the scanner does not follow, a
 grid over the slot budget (the DOM path then raises the error), or no extension at all.
+
+:func:`hollowed_page` keeps large plain tables out of lexbor's DOM (about 23 times the page's
+size): the page is parsed with those tables' content left out — the start and end tags stay, so
+selectors find the same tables — and the fast path reads them from the page's own bytes.
+Leaving out a plain table's content changes nothing else in the parse: such content holds no
+text outside cells, no comments, no tables and no open formatting elements past its cells.
+Whatever needs a hollowed table's DOM (the DOM path, an error's listing, a selector that looks
+at content) gets it from :meth:`Page.full`, which parses the whole page.
 """
 
 from __future__ import annotations
@@ -21,7 +29,10 @@ from harvester.extract.fastpath import fast_module
 from harvester.extract.grid_model import Cell, Grid
 from harvester.extract.locate import LocatedTable, Page
 
-__all__ = ["PlainGrid", "plain_grid"]
+__all__ = ["HOLLOW_MIN_CONTENT", "PlainGrid", "hollowed_page", "plain_grid"]
+
+# A plain table whose content is at least this many bytes is left out of the page's DOM.
+HOLLOW_MIN_CONTENT = 64 * 1024
 
 
 class PlainGrid(Grid):
@@ -80,18 +91,63 @@ def _noscript_is_raw_text() -> bool:
 def _page_tables(page: Page, module: ModuleType) -> _PageTables | None:
     if page in _PAGES:
         return _PAGES[page]
-    html = page.html
     state: _PageTables | None = None
-    try:
-        data = html if isinstance(html, bytes) else html.encode("utf-8")
-    except UnicodeEncodeError:  # lone surrogates: the DOM path reads them
-        data = None
+    data = _utf8(page.html)
     if data is not None:
-        offsets = module.scan_tables(data, _noscript_is_raw_text())
+        scanned = module.scan_tables(data, _noscript_is_raw_text())
+        offsets = None if scanned is None else scanned[0]
         table_ids = [node.mem_id for node in page.document.css("table")]
         state = _PageTables(data, offsets, table_ids)
     _PAGES[page] = state
     return state
+
+
+def _utf8(html: str | bytes) -> bytes | None:
+    if isinstance(html, bytes):
+        return html
+    try:
+        return html.encode("utf-8")
+    except UnicodeEncodeError:  # lone surrogates: the DOM path reads them
+        return None
+
+
+def hollowed_page(html: str | bytes, source: str) -> Page | None:
+    """``html`` parsed without the content of its large plain tables, or None if it has none
+    (or there is no fast path): the caller then parses the whole page."""
+    module = fast_module()
+    if module is None or len(html) < HOLLOW_MIN_CONTENT:
+        return None
+    data = _utf8(html)
+    if data is None:
+        return None
+    scanned = module.scan_tables(data, _noscript_is_raw_text())
+    if scanned is None:
+        return None
+    offsets, outermost = scanned
+    pieces: list[bytes] = []
+    hollow: set[int] = set()
+    kept_to = 0
+    for position, offset in enumerate(offsets):
+        # A table inside another is left whole: its text is part of the outer cell's text.
+        if not outermost[position]:
+            continue
+        extent = module.plain_extent(data, offset) if offset >= kept_to else None
+        if extent is None:
+            continue
+        content, close, _ = extent
+        if close - content >= HOLLOW_MIN_CONTENT:
+            pieces.append(data[kept_to:content])
+            kept_to = close
+            hollow.add(position)
+    if not hollow:
+        return None
+    pieces.append(data[kept_to:])
+    page = Page(html, source, parsed=b"".join(pieces), hollow=frozenset(hollow))
+    table_ids = [node.mem_id for node in page.document.css("table")]
+    if len(table_ids) != len(offsets):
+        return None  # the parser saw the page otherwise than the scanner: parse it whole
+    _PAGES[page] = _PageTables(data, offsets, table_ids)
+    return page
 
 
 def plain_grid(

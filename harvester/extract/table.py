@@ -36,7 +36,7 @@ from harvester.extract.headers import (
 )
 from harvester.extract.keys import code_names, key_column, name_column, person_keys
 from harvester.extract.locate import LocatedTable, Page, locate_table
-from harvester.extract.plain_grid import plain_grid
+from harvester.extract.plain_grid import hollowed_page, plain_grid
 from harvester.extract.rules import ColumnRule, TableRule
 from harvester.extract.values import convert_column
 
@@ -72,11 +72,13 @@ def read_page(html: str | bytes, source: str = "<page>", encoding: str | None = 
     U+FFFD for invalid sequences as decode_html would, and no decoded copy is kept.
     """
     if isinstance(html, str):
-        return Page(html, source)
+        return hollowed_page(html, source) or Page(html, source)
     chosen, has_bom = sniff_encoding(html, encoding)
     if chosen == "utf-8":
-        return Page(html[len(codecs.BOM_UTF8) :] if has_bom else html, source)
-    return Page(decode_html(html, encoding), source)
+        data = html[len(codecs.BOM_UTF8) :] if has_bom else html
+        return hollowed_page(data, source) or Page(data, source)
+    text = decode_html(html, encoding)
+    return hollowed_page(text, source) or Page(text, source)
 
 
 def _as_page(page: Page | str | bytes, source: str) -> Page:
@@ -163,7 +165,8 @@ def _grid(page: Page, located: LocatedTable, drop_hidden: bool, max_slots: int, 
     fast = plain_grid(page, located, drop_hidden=drop_hidden, max_slots=max_slots)
     if fast is not None:
         return fast
-    return build_grid(located.node, drop_hidden=drop_hidden, max_slots=max_slots, where=where)
+    node = page.with_content(located).node  # the full page's table, if this one was hollowed
+    return build_grid(node, drop_hidden=drop_hidden, max_slots=max_slots, where=where)
 
 
 def _columns(
