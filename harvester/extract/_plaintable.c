@@ -732,11 +732,17 @@ typedef struct {
     Py_ssize_t len, cap;
 } SlotRow;
 
+typedef struct { /* a cell placed wider or taller than one slot */
+    int32_t x, y, width, height;
+    PyObject *text, *link, *anchor; /* made once for all its slots (grid_result) */
+} Span;
+typedef VEC(Span) SpanVec;
+
 typedef struct {
     SlotRow *rows;
     Py_ssize_t n_rows, width, overlaps, max_slots;
-    int32_t *anchor_x, *anchor_y; /* per cell; anchor_x < 0: placed as a 1×1 cell */
-    int32_t *span_w, *span_h;
+    int32_t *span_of; /* per cell: its index in spans, or -1 for a cell of one slot */
+    SpanVec spans;
 } Placement;
 
 static int row_extend(SlotRow *row, Py_ssize_t len) {
@@ -786,7 +792,8 @@ static int place(Table *tb, Placement *pl) {
             for (Py_ssize_t r = group->first_row; r < last; r++, y++) {
                 for (Py_ssize_t i = 0; i < n_growing; i++) {
                     Py_ssize_t c = growing[i];
-                    if ((status = claim(pl, c, pl->anchor_x[c], pl->span_w[c], y)) < 0) goto done;
+                    Span *span = &pl->spans.items[pl->span_of[c]];
+                    if ((status = claim(pl, c, span->x, span->width, y)) < 0) goto done;
                 }
                 SlotRow *row = &pl->rows[y];
                 RowRec *rec = &tb->rows.items[r];
@@ -812,10 +819,10 @@ static int place(Table *tb, Placement *pl) {
                         continue;
                     }
                     if (x + width > pl->width && (status = budget(pl, x + width)) < 0) goto done;
-                    pl->anchor_x[c] = (int32_t)x;
-                    pl->anchor_y[c] = (int32_t)y;
-                    pl->span_w[c] = (int32_t)width;
-                    pl->span_h[c] = (int32_t)height;
+                    Span span = {(int32_t)x, (int32_t)y, (int32_t)width, (int32_t)height,
+                                 NULL, NULL, NULL};
+                    pl->span_of[c] = (int32_t)pl->spans.len;
+                    VEC_PUSH(pl->spans, span, memory);
                     Py_ssize_t rows_now = grows ? 1 : height;
                     for (Py_ssize_t ry = y; ry < y + rows_now; ry++)
                         if ((status = claim(pl, c, x, width, ry)) < 0) goto done;
@@ -829,6 +836,9 @@ static int place(Table *tb, Placement *pl) {
 done:
     PyMem_Free(growing);
     return status;
+memory:
+    PyMem_Free(growing);
+    return -2;
 }
 
 /* ------------------------------------------------------------------------------------------ */
@@ -873,12 +883,46 @@ static PyObject *shared_text(Shared *shared, const char *text, uint32_t len) {
     }
 }
 
+/* The text, link and anchor of the cell covering a slot: new references (link, anchor NULL
+ * when the cell has none or is a one-slot cell); a spanning cell's are made once. */
+static int slot_values(Reader *r, Table *tb, Placement *pl, Shared *shared, Py_ssize_t c,
+                       PyObject **text, PyObject **link, PyObject **anchor) {
+    CellRec *cell = &tb->cells.items[c];
+    Span *span = pl->span_of[c] >= 0 ? &pl->spans.items[pl->span_of[c]] : NULL;
+    *text = *link = *anchor = NULL;
+    if (span && span->text) {
+        *text = Py_NewRef(span->text);
+        *link = Py_XNewRef(span->link);
+        *anchor = Py_NewRef(span->anchor);
+        return 0;
+    }
+    *text = shared_text(shared, r->text.data + cell->text_start, cell->text_len);
+    if (!*text) return -1;
+    if (cell->href_start >= 0) {
+        *link = PyUnicode_DecodeUTF8(r->links.data + cell->href_start, cell->href_len, "strict");
+        if (!*link) {
+            Py_CLEAR(*text);
+            return -1;
+        }
+    }
+    if (span) {
+        if (!(*anchor = pair(span->x, span->y))) {
+            Py_CLEAR(*text);
+            Py_CLEAR(*link);
+            return -1;
+        }
+        span->text = Py_NewRef(*text);
+        span->link = Py_XNewRef(*link);
+        span->anchor = Py_NewRef(*anchor);
+    }
+    return 0;
+}
+
 static PyObject *grid_result(Reader *r, Table *tb, Placement *pl, PyObject *attributes) {
     PyObject *texts = NULL, *groups = NULL, *headers = NULL, *covered = NULL, *owners = NULL;
     PyObject *spans = NULL, *links = NULL, *caption = NULL, *empty = NULL, *result = NULL;
-    PyObject **cell_text = NULL, **cell_link = NULL, **anchors = NULL;
     Shared *shared = NULL;
-    Py_ssize_t n_cells = tb->cells.len, width = pl->width;
+    Py_ssize_t width = pl->width;
     static PyObject *kinds[3];
     if (!kinds[0]) {
         kinds[0] = PyUnicode_InternFromString("thead");
@@ -886,24 +930,8 @@ static PyObject *grid_result(Reader *r, Table *tb, Placement *pl, PyObject *attr
         kinds[2] = PyUnicode_InternFromString("tfoot");
         if (!kinds[0] || !kinds[1] || !kinds[2]) return NULL;
     }
-    cell_text = PyMem_Calloc((size_t)n_cells + 1, sizeof(PyObject *));
-    cell_link = PyMem_Calloc((size_t)n_cells + 1, sizeof(PyObject *));
-    anchors = PyMem_Calloc((size_t)n_cells + 1, sizeof(PyObject *));
-    if (!cell_text || !cell_link || !anchors) { PyErr_NoMemory(); goto fail; }
     shared = PyMem_Calloc(1, sizeof(Shared));
     if (!shared) { PyErr_NoMemory(); goto fail; }
-    for (Py_ssize_t c = 0; c < n_cells; c++) {
-        CellRec *cell = &tb->cells.items[c];
-        cell_text[c] = shared_text(shared, r->text.data + cell->text_start, cell->text_len);
-        if (!cell_text[c]) goto fail;
-        if (cell->href_start >= 0) {
-            cell_link[c] = PyUnicode_DecodeUTF8(r->links.data + cell->href_start,
-                                                cell->href_len, "strict");
-            if (!cell_link[c]) goto fail;
-        }
-        if (pl->anchor_x[c] >= 0 && !(anchors[c] = pair(pl->anchor_x[c], pl->anchor_y[c])))
-            goto fail;
-    }
     empty = PyUnicode_FromStringAndSize("", 0);
     texts = PyList_New(pl->n_rows);
     groups = PyList_New(pl->n_rows);
@@ -922,10 +950,8 @@ static PyObject *grid_result(Reader *r, Table *tb, Placement *pl, PyObject *attr
             Py_ssize_t last = g + 1 < tb->groups.len ? tb->groups.items[g + 1].first_row
                                                      : tb->rows.len;
             PyObject *kind = kinds[group->kind == 'h' ? 0 : group->kind == 'b' ? 1 : 2];
-            for (Py_ssize_t r2 = group->first_row; r2 < last; r2++, y++) {
-                Py_INCREF(kind);
-                PyList_SET_ITEM(groups, y, kind);
-            }
+            for (Py_ssize_t r2 = group->first_row; r2 < last; r2++, y++)
+                PyList_SET_ITEM(groups, y, Py_NewRef(kind));
         }
     }
     for (y = 0; y < pl->n_rows; y++) {
@@ -936,17 +962,22 @@ static PyObject *grid_result(Reader *r, Table *tb, Placement *pl, PyObject *attr
         Py_ssize_t prefix = 0, any_header = 0, gap = 0;
         for (Py_ssize_t x = 0; x < width; x++) {
             Py_ssize_t c = x < row->len ? row->slots[x] : -1;
-            PyObject *value = c >= 0 ? cell_text[c] : empty;
-            Py_INCREF(value);
-            PyList_SET_ITEM(line, x, value);
-            if (c < 0) { gap = 1; continue; }
+            if (c < 0) {
+                PyList_SET_ITEM(line, x, Py_NewRef(empty));
+                gap = 1;
+                continue;
+            }
+            PyObject *text, *link, *anchor;
+            if (slot_values(r, tb, pl, shared, c, &text, &link, &anchor) < 0) goto fail;
+            PyList_SET_ITEM(line, x, text);
+            int failed = (link && set_pair_item(links, x, y, link) < 0) ||
+                         (anchor && set_pair_item(owners, x, y, anchor) < 0);
+            Py_XDECREF(link);
+            Py_XDECREF(anchor);
+            if (failed) goto fail;
             if (!gap) prefix = x + 1;
             else gap = 2; /* a covered slot after an empty one */
             if (tb->cells.items[c].header) any_header = 1;
-            if (cell_link[c] && set_pair_item(links, x, y, cell_link[c]) < 0) goto fail;
-            if (anchors[c]) {
-                if (set_pair_item(owners, x, y, anchors[c]) < 0) goto fail;
-            }
         }
         PyObject *flags = Py_None;
         if (any_header) {
@@ -954,9 +985,8 @@ static PyObject *grid_result(Reader *r, Table *tb, Placement *pl, PyObject *attr
             if (!flags) goto fail;
             for (Py_ssize_t x = 0; x < width; x++) {
                 Py_ssize_t c = x < row->len ? row->slots[x] : -1;
-                PyObject *flag = (c >= 0 && tb->cells.items[c].header) ? Py_True : Py_False;
-                Py_INCREF(flag);
-                PyList_SET_ITEM(flags, x, flag);
+                int header = c >= 0 && tb->cells.items[c].header;
+                PyList_SET_ITEM(flags, x, Py_NewRef(header ? Py_True : Py_False));
             }
         } else {
             Py_INCREF(flags);
@@ -967,9 +997,8 @@ static PyObject *grid_result(Reader *r, Table *tb, Placement *pl, PyObject *attr
             cover = PyList_New(width);
             if (!cover) goto fail;
             for (Py_ssize_t x = 0; x < width; x++) {
-                PyObject *flag = (x < row->len && row->slots[x] >= 0) ? Py_True : Py_False;
-                Py_INCREF(flag);
-                PyList_SET_ITEM(cover, x, flag);
+                int on = x < row->len && row->slots[x] >= 0;
+                PyList_SET_ITEM(cover, x, Py_NewRef(on ? Py_True : Py_False));
             }
         } else {
             cover = PyLong_FromSsize_t(prefix);
@@ -977,10 +1006,14 @@ static PyObject *grid_result(Reader *r, Table *tb, Placement *pl, PyObject *attr
         }
         PyList_SET_ITEM(covered, y, cover);
     }
-    for (Py_ssize_t c = 0; c < n_cells; c++) {
-        if (!anchors[c]) continue;
-        PyObject *size = pair(pl->span_w[c], pl->span_h[c]);
-        if (!size || PyDict_SetItem(spans, anchors[c], size) < 0) { Py_XDECREF(size); goto fail; }
+    for (Py_ssize_t i = 0; i < pl->spans.len; i++) {
+        Span *span = &pl->spans.items[i];
+        if (!span->anchor) continue; /* every slot it would cover was taken by another cell */
+        PyObject *size = pair(span->width, span->height);
+        if (!size || PyDict_SetItem(spans, span->anchor, size) < 0) {
+            Py_XDECREF(size);
+            goto fail;
+        }
         Py_DECREF(size);
     }
     if (tb->has_caption) {
@@ -988,21 +1021,17 @@ static PyObject *grid_result(Reader *r, Table *tb, Placement *pl, PyObject *attr
                                        "strict");
         if (!caption) goto fail;
     } else {
-        caption = Py_None;
-        Py_INCREF(caption);
+        caption = Py_NewRef(Py_None);
     }
     result = Py_BuildValue("(OOnOOOOOOnO)", attributes, caption, width, groups, texts, headers,
                            covered, owners, spans, pl->overlaps, links);
 fail:
-    for (Py_ssize_t c = 0; c < n_cells; c++) {
-        if (cell_text) Py_XDECREF(cell_text[c]);
-        if (cell_link) Py_XDECREF(cell_link[c]);
-        if (anchors) Py_XDECREF(anchors[c]);
+    for (Py_ssize_t i = 0; i < pl->spans.len; i++) {
+        Py_CLEAR(pl->spans.items[i].text);
+        Py_CLEAR(pl->spans.items[i].link);
+        Py_CLEAR(pl->spans.items[i].anchor);
     }
     PyMem_Free(shared);
-    PyMem_Free(cell_text);
-    PyMem_Free(cell_link);
-    PyMem_Free(anchors);
     Py_XDECREF(empty);
     Py_XDECREF(texts);
     Py_XDECREF(groups);
@@ -1046,12 +1075,9 @@ static PyObject *read_table(PyObject *self, PyObject *args) {
     pl.n_rows = tb.rows.len;
     pl.max_slots = max_slots;
     pl.rows = PyMem_Calloc((size_t)pl.n_rows + 1, sizeof(SlotRow));
-    pl.anchor_x = PyMem_Malloc(sizeof(int32_t) * ((size_t)tb.cells.len + 1));
-    pl.anchor_y = PyMem_Malloc(sizeof(int32_t) * ((size_t)tb.cells.len + 1));
-    pl.span_w = PyMem_Malloc(sizeof(int32_t) * ((size_t)tb.cells.len + 1));
-    pl.span_h = PyMem_Malloc(sizeof(int32_t) * ((size_t)tb.cells.len + 1));
-    if (!pl.rows || !pl.anchor_x || !pl.anchor_y || !pl.span_w || !pl.span_h) goto memory;
-    for (Py_ssize_t c = 0; c < tb.cells.len; c++) pl.anchor_x[c] = -1;
+    pl.span_of = PyMem_Malloc(sizeof(int32_t) * ((size_t)tb.cells.len + 1));
+    if (!pl.rows || !pl.span_of) goto memory;
+    for (Py_ssize_t c = 0; c < tb.cells.len; c++) pl.span_of[c] = -1;
     status = place(&tb, &pl);
     if (status == -2) goto memory;
     if (status < 0) {
@@ -1070,10 +1096,8 @@ error:
     if (pl.rows)
         for (Py_ssize_t y = 0; y < pl.n_rows; y++) PyMem_Free(pl.rows[y].slots);
     PyMem_Free(pl.rows);
-    PyMem_Free(pl.anchor_x);
-    PyMem_Free(pl.anchor_y);
-    PyMem_Free(pl.span_w);
-    PyMem_Free(pl.span_h);
+    PyMem_Free(pl.span_of);
+    PyMem_Free(pl.spans.items);
     PyMem_Free(tb.cells.items);
     PyMem_Free(tb.rows.items);
     PyMem_Free(tb.groups.items);
