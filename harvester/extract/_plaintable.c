@@ -219,25 +219,45 @@ enum {
 
 static int tag_id(const char *name, Py_ssize_t len) {
 #define IS(s) (len == (Py_ssize_t)sizeof(s) - 1 && memcmp(name, s, sizeof(s) - 1) == 0)
-    if (IS("td")) return T_TD;
-    if (IS("tr")) return T_TR;
-    if (IS("th")) return T_TH;
-    if (IS("a")) return T_A;
-    if (IS("table")) return T_TABLE;
-    if (IS("tbody")) return T_TBODY;
-    if (IS("thead")) return T_THEAD;
-    if (IS("tfoot")) return T_TFOOT;
-    if (IS("caption")) return T_CAPTION;
-    if (IS("colgroup")) return T_COLGROUP;
-    if (IS("col")) return T_COL;
-    if (IS("br")) return T_BR;
-    if (IS("img") || IS("wbr")) return T_VOID_INLINE;
+    /* The table's own tags first, by length: they are nearly every tag of a large table. */
+    switch (len) {
+    case 1:
+        if (name[0] == 'a') return T_A;
+        if (name[0] == 'b' || name[0] == 'i' || name[0] == 'u' || name[0] == 's' ||
+            name[0] == 'q')
+            return T_INLINE;
+        return T_OTHER;
+    case 2:
+        if (name[0] == 't') {
+            if (name[1] == 'd') return T_TD;
+            if (name[1] == 'r') return T_TR;
+            if (name[1] == 'h') return T_TH;
+        }
+        if (IS("br")) return T_BR;
+        break;
+    case 5:
+        if (IS("table")) return T_TABLE;
+        if (IS("tbody")) return T_TBODY;
+        if (IS("thead")) return T_THEAD;
+        if (IS("tfoot")) return T_TFOOT;
+        break;
+    case 3:
+        if (IS("col")) return T_COL;
+        if (IS("img") || IS("wbr")) return T_VOID_INLINE;
+        break;
+    case 7:
+        if (IS("caption")) return T_CAPTION;
+        break;
+    case 8:
+        if (IS("colgroup")) return T_COLGROUP;
+        break;
+    }
     /* Phrasing elements with no special parsing rules inside a cell, once properly nested
      * (§13.2.6.4.7 "in body": formatting elements and "any other start tag"). */
-    if (IS("span") || IS("b") || IS("i") || IS("em") || IS("strong") || IS("small") ||
-        IS("abbr") || IS("sup") || IS("sub") || IS("u") || IS("s") || IS("code") ||
-        IS("time") || IS("data") || IS("cite") || IS("q") || IS("dfn") || IS("kbd") ||
-        IS("samp") || IS("var") || IS("mark") || IS("bdi") || IS("bdo") || IS("font"))
+    if (IS("span") || IS("em") || IS("strong") || IS("small") || IS("abbr") || IS("sup") ||
+        IS("sub") || IS("code") || IS("time") || IS("data") || IS("cite") || IS("dfn") ||
+        IS("kbd") || IS("samp") || IS("var") || IS("mark") || IS("bdi") || IS("bdo") ||
+        IS("font"))
         return T_INLINE;
     return T_OTHER;
 #undef IS
@@ -266,8 +286,14 @@ typedef struct {
 
 /* Append a decoded attribute value (from p to q) to r->attrs; -1 when not plain. */
 static int attr_value(Reader *r, const unsigned char *p, const unsigned char *q) {
+    if (bytes_reserve(&r->attrs, q - p) < 0) return -2; /* decoding never makes a value longer */
     while (p < q) {
         unsigned char c = *p;
+        if (c >= 0x20 && c < 0x7F && c != '&') { /* the common case, copied inline */
+            r->attrs.data[r->attrs.len++] = (char)c;
+            p++;
+            continue;
+        }
         if (c == '&') {
             uint32_t cp;
             Py_ssize_t n = char_ref(p, q, &cp);
