@@ -366,7 +366,7 @@ static int read_tag(Reader *r, Tag *t, PyObject *attributes) {
             if (*p == '"' || *p == '\'' || *p == '<' || *p >= 0x80 || *p < 0x20) return -1;
             p++;
         }
-        char attr_name[16];
+        char attr_name[64];
         Py_ssize_t attr_len = p - attr;
         if (attr_len >= (Py_ssize_t)sizeof attr_name) return -1;
         for (Py_ssize_t i = 0; i < attr_len; i++)

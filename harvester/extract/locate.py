@@ -74,6 +74,7 @@ class Page:
         self._full: Page | None = None
         self._uncommented: LexborHTMLParser | None = None
         self._uncommented_done = False
+        self.uncommented_html: str | bytes | None = None  # what ``uncommented`` parsed
 
     def full(self) -> Page:
         """This page with every table's content in its DOM: itself unless some was left out."""
@@ -99,12 +100,15 @@ class Page:
         if not self._uncommented_done:
             self._uncommented_done = True
             html = self.html
+            opened: str | bytes | None = None
             if isinstance(html, bytes):
                 if b"<!--" in html and _COMMENT_WITH_TABLE_BYTES.search(html):
                     opened = _COMMENT_WITH_TABLE_BYTES.sub(_open_comment_bytes, html)
-                    self._uncommented = LexborHTMLParser(opened)
             elif "<!--" in html and _COMMENT_WITH_TABLE.search(html):
-                self._uncommented = LexborHTMLParser(_COMMENT_WITH_TABLE.sub(_open_comment, html))
+                opened = _COMMENT_WITH_TABLE.sub(_open_comment, html)
+            if opened is not None:
+                self.uncommented_html = opened
+                self._uncommented = LexborHTMLParser(opened)
         return self._uncommented
 
     def tables(self, select: str) -> list[LocatedTable]:

@@ -5,7 +5,7 @@ every ``<table`` start tag the HTML tokenizer sees, in document order, and the p
 hold exactly as many tables, the located one with the same attributes), then lets the compiled
 reader form its grid. It returns None — and the caller uses :func:`grid.build_grid`, the
 reference — whenever the reader cannot be sure: a table that is not plain (see
-``_plaintable.c``), a table from a comment, a page whose markup the scanner does not follow, a
+``_plaintable.c``), a page whose markup the scanner does not follow, a
 grid over the slot budget (the DOM path then raises the error), or no extension at all.
 
 :func:`hollowed_page` keeps large plain tables out of lexbor's DOM (about 23 times the page's
@@ -76,6 +76,8 @@ class _PageTables:
 
 
 _PAGES: weakref.WeakKeyDictionary[Page, _PageTables | None] = weakref.WeakKeyDictionary()
+# The same for the page parsed again with its table-holding comments opened (Page.uncommented).
+_OPENED: weakref.WeakKeyDictionary[Page, _PageTables | None] = weakref.WeakKeyDictionary()
 _NOSCRIPT_RAW: bool | None = None
 
 
@@ -88,17 +90,21 @@ def _noscript_is_raw_text() -> bool:
     return _NOSCRIPT_RAW
 
 
-def _page_tables(page: Page, module: ModuleType) -> _PageTables | None:
-    if page in _PAGES:
-        return _PAGES[page]
+def _page_tables(page: Page, module: ModuleType, in_comment: bool) -> _PageTables | None:
+    known = _OPENED if in_comment else _PAGES
+    if page in known:
+        return known[page]
     state: _PageTables | None = None
-    data = _utf8(page.html)
-    if data is not None:
+    html, document = (
+        (page.uncommented_html, page.uncommented) if in_comment else (page.html, page.document)
+    )
+    data = None if html is None or document is None else _utf8(html)
+    if data is not None and document is not None:
         scanned = module.scan_tables(data, _noscript_is_raw_text())
         offsets = None if scanned is None else scanned[0]
-        table_ids = [node.mem_id for node in page.document.css("table")]
+        table_ids = [node.mem_id for node in document.css("table")]
         state = _PageTables(data, offsets, table_ids)
-    _PAGES[page] = state
+    known[page] = state
     return state
 
 
@@ -147,7 +153,7 @@ def hollowed_page(html: str | bytes, source: str) -> Page | None:
     if len(table_ids) != len(offsets):
         return None  # the parser saw the page otherwise than the scanner: parse it whole
     _PAGES[page] = _PageTables(data, offsets, table_ids)
-    return page
+    return page  # tables from comments are read from Page.uncommented_html (_page_tables)
 
 
 def plain_grid(
@@ -155,9 +161,9 @@ def plain_grid(
 ) -> Grid | None:
     """The grid of ``located`` read by the compiled reader, or None for the DOM path."""
     module = fast_module()
-    if module is None or located.in_comment:
+    if module is None:
         return None
-    tables = _page_tables(page, module)
+    tables = _page_tables(page, module, located.in_comment)
     if tables is None or tables.offsets is None:
         return None
     if len(tables.offsets) != len(tables.table_ids):
