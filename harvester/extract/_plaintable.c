@@ -585,8 +585,9 @@ static int read_cells(Reader *r, Table *tb) {
                             if (bytes_reserve(&r->links, t.href_len) < 0) return -2;
                             cell.href_start = (int32_t)r->links.len;
                             cell.href_len = (uint32_t)t.href_len;
-                            memcpy(r->links.data + r->links.len, r->attrs.data + t.href_start,
-                                   (size_t)t.href_len);
+                            if (t.href_len) /* an empty href has no bytes to copy */
+                                memcpy(r->links.data + r->links.len, r->attrs.data + t.href_start,
+                                       (size_t)t.href_len);
                             r->links.len += t.href_len;
                         }
                     }
@@ -890,6 +891,7 @@ typedef struct {
 } Shared;
 
 static PyObject *shared_text(Shared *shared, const char *text, uint32_t len) {
+    if (len == 0) return PyUnicode_FromStringAndSize("", 0); /* the buffer may be unallocated */
     if (len > SHARED_MAX_LEN) return PyUnicode_DecodeUTF8(text, len, "strict");
     uint32_t hash = 2166136261u; /* FNV-1a */
     for (uint32_t i = 0; i < len; i++) hash = (hash ^ (unsigned char)text[i]) * 16777619u;
@@ -925,7 +927,9 @@ static int slot_values(Reader *r, Table *tb, Placement *pl, Shared *shared, Py_s
     *text = shared_text(shared, r->text.data + cell->text_start, cell->text_len);
     if (!*text) return -1;
     if (cell->href_start >= 0) {
-        *link = PyUnicode_DecodeUTF8(r->links.data + cell->href_start, cell->href_len, "strict");
+        *link = cell->href_len ? PyUnicode_DecodeUTF8(r->links.data + cell->href_start,
+                                                      cell->href_len, "strict")
+                               : PyUnicode_FromStringAndSize("", 0);
         if (!*link) {
             Py_CLEAR(*text);
             return -1;
@@ -1043,8 +1047,9 @@ static PyObject *grid_result(Reader *r, Table *tb, Placement *pl, PyObject *attr
         Py_DECREF(size);
     }
     if (tb->has_caption) {
-        caption = PyUnicode_DecodeUTF8(r->text.data + tb->caption_start, tb->caption_len,
-                                       "strict");
+        caption = tb->caption_len ? PyUnicode_DecodeUTF8(r->text.data + tb->caption_start,
+                                                         tb->caption_len, "strict")
+                                  : PyUnicode_FromStringAndSize("", 0);
         if (!caption) goto fail;
     } else {
         caption = Py_NewRef(Py_None);
