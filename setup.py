@@ -5,15 +5,20 @@ installation still succeeds and harvester reads every table through the DOM path
 (``harvester --version`` says which path is in use).
 """
 
+from pathlib import Path
+
 from setuptools import Extension, setup
+
+SOURCES = sorted(str(path) for path in Path("harvester/extract/_plaintable_c").glob("*.c"))
 
 setup(
     ext_modules=[
         Extension(
             "harvester.extract._plaintable",
-            ["harvester/extract/_plaintable.c"],
+            SOURCES,
+            depends=["harvester/extract/_plaintable_c/plaintable.h"],
             optional=True,
-            extra_compile_args=["-O2"],
+            extra_compile_args=["-O2", "-fvisibility=hidden"],
         )
     ]
 )

@@ -5,7 +5,7 @@ every ``<table`` start tag the HTML tokenizer sees, in document order, and the p
 hold exactly as many tables, the located one with the same attributes), then lets the compiled
 reader form its grid. It returns None — and the caller uses :func:`grid.build_grid`, the
 reference — whenever the reader cannot be sure: a table that is not plain (see
-``_plaintable.c``), a page whose markup the scanner does not follow, a
+``_plaintable_c/cells.c``), a page whose markup the scanner does not follow, a
 grid over the slot budget (the DOM path then raises the error), or no extension at all.
 
 :func:`hollowed_page` keeps large plain tables out of lexbor's DOM (about 23 times the page's
