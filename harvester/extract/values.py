@@ -9,7 +9,7 @@ that every non-null cell parses as (tried in :data:`INFER_ORDER`), else ``"text"
 The parsers for each type are in ``parsers.py`` (re-exported here). Integer, decimal and percent
 columns are first tried whole with pyarrow.compute (``bulk_numbers.py``), which hands back any
 column it cannot prove it reads exactly as the parsers do. Arrays are built from buffers
-(``arrays.py``), so extraction never imports pandas.
+(``arrays.py``), so typing a column never imports pandas.
 """
 
 from __future__ import annotations
