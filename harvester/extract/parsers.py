@@ -23,6 +23,7 @@ from harvester.extract.rules import ColumnType
 __all__ = [
     "ARROW_TYPES",
     "DEFAULT_TRUE_VALUES",
+    "GROUP_SPACES",
     "INFER_ORDER",
     "MINUS_SIGNS",
     "PARSERS",
@@ -35,6 +36,7 @@ __all__ = [
     "parse_duration",
     "parse_integer",
     "parse_percent",
+    "plain_number",
 ]
 
 # Texts a boolean ("marker") column shows for true (common practice, no published source).
@@ -44,7 +46,7 @@ MINUS_SIGNS = "-\u2212\u2012\u2013\ufe63\uff0d"
 _Kinds = tuple[ColumnType, ...]
 INFER_ORDER: _Kinds = ("integer", "decimal", "percent", "currency", "duration", "date")
 
-_GROUP_SPACES = " \u00a0\u202f\u2009"  # space, no-break, narrow no-break, thin
+GROUP_SPACES = " \u00a0\u202f\u2009"  # space, no-break, narrow no-break, thin
 _SIGNS = "+" + MINUS_SIGNS
 _NUMERIC = ("integer", "decimal", "percent", "currency")
 _MULTIPLIERS = {"k": 10**3, "K": 10**3, "m": 10**6, "M": 10**6, "bn": 10**9, "B": 10**9}
@@ -64,7 +66,7 @@ ARROW_TYPES.update(percent=_FLOAT, date=pa.date32(), duration=_INT, boolean=pa.b
 
 def _forms(decimal_mark: str, infer: bool, group: str) -> dict[str, str]:
     """Regex source per numeric kind; ``group`` names the separator group so copies coexist."""
-    seps = re.escape(("," if decimal_mark == "." else ".") + _GROUP_SPACES)
+    seps = re.escape(("," if decimal_mark == "." else ".") + GROUP_SPACES)
     sign, decimal, bare = f"[+{re.escape(MINUS_SIGNS)}]", "\\" + decimal_mark, "" if infer else "?"
     # Grouped digits come in threes with one separator throughout, so "1,25" is no integer;
     # inference refuses leading zeros, as "007" is an identifier, not seven (both: common
@@ -73,11 +75,11 @@ def _forms(decimal_mark: str, infer: bool, group: str) -> dict[str, str]:
     digits = rf"(?:0|[1-9][0-9]{{0,2}}{grouped})" if infer else rf"[0-9]{{1,3}}{grouped}"
     unsigned = rf"(?:{digits}(?:{decimal}[0-9]+)?|{decimal}[0-9]+)"
     # A declared percent or currency column also takes bare numbers ("0" for no money).
-    symbol = rf"(?:[$€£¥][{_GROUP_SPACES}]?|[A-Z]{{3}}[ \u00a0]){bare}"
+    symbol = rf"(?:[$€£¥][{GROUP_SPACES}]?|[A-Z]{{3}}[ \u00a0]){bare}"
     return {
         "integer": rf"{sign}?{digits}",
         "decimal": rf"{sign}?{unsigned}",
-        "percent": rf"{sign}?{unsigned}(?:[{_GROUP_SPACES}]?%){bare}",
+        "percent": rf"{sign}?{unsigned}(?:[{GROUP_SPACES}]?%){bare}",
         "currency": rf"(?:{sign}{symbol}(?!{sign})|{symbol}{sign}?){unsigned}",
         "multiplied": rf"(?P<pre>{sign})?{symbol}(?P<num>{sign}?{unsigned})(?P<mult>bn|[kKmMB])?",
     }
@@ -97,7 +99,7 @@ def _pattern(decimal_mark: str, kind: str, infer: bool) -> re.Pattern[str]:
 def _replacements(decimal_mark: str) -> tuple[tuple[str, str], ...]:
     """What turns matched texts into what int() and float() read: signs, separators, symbols."""
     group_separator = "," if decimal_mark == "." else "."
-    drop = group_separator + _GROUP_SPACES + "+%$€£¥ABCDEFGHIJKLMNOPQRSTUVWXYZ"
+    drop = group_separator + GROUP_SPACES + "+%$€£¥ABCDEFGHIJKLMNOPQRSTUVWXYZ"
     minus = tuple((c, "-") for c in MINUS_SIGNS[1:])
     return (*((c, "") for c in drop), *minus, (decimal_mark, "."))
 
@@ -105,7 +107,8 @@ def _replacements(decimal_mark: str) -> tuple[tuple[str, str], ...]:
 _REPLACEMENTS = {".": _replacements("."), ",": _replacements(",")}
 
 
-def _plain(text: str, decimal_mark: str) -> str:
+def plain_number(text: str, decimal_mark: str) -> str:
+    """A matched number as int() and float() read it: ASCII minus, no separators or symbols."""
     # A few str.replace calls beat str.translate, which is slow once the text is not ASCII.
     for old, new in _REPLACEMENTS[decimal_mark]:
         if old in text:
@@ -162,14 +165,14 @@ def _numbers(kind: str, cells: list[str], ctx: ParseContext) -> _Result:
             return None, -1
         return None, next(i for i, c in enumerate(cells) if not pattern.fullmatch(c))
     convert: Callable[[str], Any] = int if kind == "integer" else float
-    return list(map(convert, _plain(joined, ctx.decimal_mark).split("\0"))), -1
+    return list(map(convert, plain_number(joined, ctx.decimal_mark).split("\0"))), -1
 
 
 def _currency(text: str, pattern: re.Pattern[str], decimal_mark: str) -> float | None:
     match = pattern.fullmatch(text)
     if match is None or (match["pre"] and match["num"][0] in _SIGNS):
         return None
-    number, multiplier = _plain(match["num"], decimal_mark), match["mult"]
+    number, multiplier = plain_number(match["num"], decimal_mark), match["mult"]
     # Decimal keeps "1.2m" exactly 1,200,000 rather than 1.2 * 1e6 in binary.
     value = float(Decimal(number) * _MULTIPLIERS[multiplier]) if multiplier else float(number)
     return -value if match["pre"] and match["pre"] != "+" else value

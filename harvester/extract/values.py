@@ -6,7 +6,10 @@ Per cell: surrounding whitespace is stripped, then a trailing run of footnote ma
 that does not parse raises :class:`~harvester.errors.ValueParseError`; an inferred type is one
 that every non-null cell parses as (tried in :data:`INFER_ORDER`), else ``"text"``.
 
-The parsers for each type are in ``parsers.py`` (re-exported here).
+The parsers for each type are in ``parsers.py`` (re-exported here). Integer, decimal and percent
+columns are first tried whole with pyarrow.compute (``bulk_numbers.py``), which hands back any
+column it cannot prove it reads exactly as the parsers do. Arrays are built from buffers
+(``arrays.py``), so typing a column never imports pandas.
 """
 
 from __future__ import annotations
@@ -19,6 +22,8 @@ from typing import Any
 import pyarrow as pa
 
 from harvester.errors import ValueParseError
+from harvester.extract.arrays import from_values, spread, string_array
+from harvester.extract.bulk_numbers import bulk_column
 from harvester.extract.parsers import (
     ARROW_TYPES,
     DEFAULT_TRUE_VALUES,
@@ -90,8 +95,9 @@ def _prepare(texts: Sequence[str], markers: str) -> tuple[list[str], list[str | 
     if joined.count("\0") != len(cores):
         cores = [c.replace("\0", "\ufffd") for c in cores]
         joined = "\0".join(cores) + "\0"
-    # Whole-column checks in C first: most columns have no cell ending in a marker at all.
-    if not any(marker + "\0" in joined for marker in markers):
+    # Whole-column checks in C first: most columns have no cell ending in a marker at all. A
+    # one-character search is a memchr; the two-character one is slow where NULs are dense.
+    if not any(marker + "\0" in joined for marker in markers if marker in joined):
         return cores, None
     hits = list(compress(range(len(cores)), map(str.endswith, cores, repeat(tuple(markers)))))
     markers_split_off: list[str | None] = [None] * len(cores)
@@ -152,11 +158,16 @@ def convert_column(
     cells = cores if positions is None else [cores[i] for i in positions]
 
     declared = rule.type if rule is not None else None
+    inferred = declared is None and table.infer_types
     kind: ColumnType
-    if declared is None and table.infer_types:
+    bulk = bulk_column(declared, cells, table.decimal_mark) if inferred or declared else None
+    if bulk is not None:
+        kind, dense = bulk
+    elif inferred:
         kind, values = _infer(cells, table.decimal_mark)
+        dense = _dense(kind, values)
     elif declared is None or declared == "text":
-        kind, values = "text", cells
+        kind, dense = "text", string_array(cells)
     else:
         kind = declared
         formats = rule.formats if rule is not None else ()
@@ -164,8 +175,9 @@ def convert_column(
         if parsed is None:
             at = positions[bad] if positions is not None else bad
             raise _fail(name, texts[at], kind, rows.describe(at), hint)
-        values = parsed
-    return TypedColumn(name, _array(kind, values, positions, len(cores)), kind, markers_column)
+        dense = _dense(kind, parsed)
+    values_column = dense if positions is None else spread(dense, positions, len(cores))
+    return TypedColumn(name, values_column, kind, markers_column)
 
 
 @dataclass(frozen=True)
@@ -225,7 +237,7 @@ def _boolean_column(
             continue
         raise _fail(name, raw, "boolean", rows.describe(i), _BOOLEAN_HINT)
     markers_column = _strings(markers_split_off) if rule.markers_to is not None else None
-    return TypedColumn(name, pa.array(values, type=pa.bool_()), "boolean", markers_column)
+    return TypedColumn(name, from_values(values, pa.bool_()), "boolean", markers_column)
 
 
 def _non_null_positions(cores: list[str], nulls: Sequence[str]) -> list[int] | None:
@@ -249,27 +261,18 @@ def _parse_declared(
     return parsed, bad, ""
 
 
-def _array(
-    kind: ColumnType, values: list[Any], positions: list[int] | None, length: int
-) -> pa.Array:
-    """The column's Arrow array: ``values`` put back at ``positions``, null everywhere else."""
+def _dense(kind: ColumnType, values: list[Any]) -> pa.Array:
+    """The Arrow array of one column's parsed non-null values."""
     arrow_type = ARROW_TYPES[kind]
     if kind == "duration" and any(type(value) is float for value in values):
         # One cell with fractional seconds makes the whole column float seconds.
         arrow_type = pa.float64()
         values = [float(value) for value in values]
-    if positions is not None:
-        full: list[Any] = [None] * length
-        for at, value in zip(positions, values, strict=True):
-            full[at] = value
-        values = full
-    return _strings(values) if kind == "text" else pa.array(values, type=arrow_type)
+    return from_values(values, arrow_type)
 
 
-def _strings(values: list[Any]) -> pa.Array:
-    # from_pandas=True takes pyarrow's faster conversion path for str lists (~8x here);
-    # it only changes how float NaN is read, and these lists hold str and None only.
-    return pa.array(values, type=pa.string(), from_pandas=True)
+def _strings(values: list[str | None]) -> pa.Array:
+    return from_values(values, pa.string())
 
 
 def _fail(name: str, text: str, kind: str, where: str, hint: str) -> ValueParseError:
