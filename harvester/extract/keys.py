@@ -26,6 +26,7 @@ import pyarrow as pa
 from anyascii import anyascii
 
 from harvester.errors import ExtractError
+from harvester.extract.arrays import from_values
 from harvester.extract.rules import ColumnRule
 
 __all__ = [
@@ -90,7 +91,7 @@ def person_keys(
         )
     canonical = dict(aliases)
     keys = [person_key(value) for value in values.to_pylist()]
-    return pa.array([canonical.get(key, key) if key else key for key in keys], type=pa.string())
+    return from_values([canonical.get(key, key) if key else key for key in keys], pa.string())
 
 
 def name_column(name: str) -> str:
@@ -120,4 +121,4 @@ def code_names(values: pa.Array, rule: ColumnRule) -> tuple[pa.Array, str]:
             f"column {rule.name!r}: {len(unknown)} code(s) not in {rule.codes}: {listed};"
             f" their {name_column(rule.name)} is null — add them to {rule.codes}"
         )
-    return pa.array(found, type=pa.string()), note
+    return from_values(found, pa.string()), note

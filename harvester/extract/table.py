@@ -23,6 +23,7 @@ from urllib.parse import urljoin
 import pyarrow as pa
 
 from harvester.errors import ExtractError
+from harvester.extract.arrays import from_values
 from harvester.extract.collector import EXTRACTION_PAUSE
 from harvester.extract.decode import decode_html, sniff_encoding
 from harvester.extract.grid import MAX_GRID_SLOTS, build_grid
@@ -183,7 +184,7 @@ def _columns(
     columns: list[pa.Array] = []
     column_names: list[str] = []
     if rule.group_rows == "column" and any(group is not None for group in body.groups):
-        columns.append(pa.array(body.groups, type=pa.string()))
+        columns.append(from_values(body.groups, pa.string()))
         column_names.append(rule.group_column)
     body_rows, grid_rows = _row_numbers(body.source_rows, header_indices)
     # The body's columns, transposed at once (zip runs in C; a comprehension per column did not).
@@ -322,4 +323,4 @@ def _links(
             match = pattern.search(href)
             href = (match.group(1) if match.groups() else match.group(0)) if match else None
         values.append(href)
-    return pa.array(values, type=pa.string())
+    return from_values(values, pa.string())

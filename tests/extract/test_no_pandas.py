@@ -35,6 +35,28 @@ print(json.dumps({
 }))
 """
 
+# The derived columns: a link column, group labels as a column, a person key and code names.
+DERIVED = r"""
+import json, sys, tempfile, pathlib
+from harvester.extract.rules import ColumnRule, TableRule
+from harvester.extract.table import extract_table
+
+page = '''<table><tr><th>Player</th><th>Club</th></tr>
+<tr><th colspan=2>East</th></tr>
+<tr><td><a href="/p/1">Varn, Lea</a></td><td>VRE</td></tr>
+<tr><td><a href="/p/2">Osk Belund</a></td><td>ZZZ</td></tr></table>'''
+rule = TableRule(group_rows="column", columns=(
+    ColumnRule("player", person_key=True),
+    ColumnRule("club", codes="clubs.csv", code_names=(("VRE", "HC Vrelmark"),)),
+    ColumnRule("link", link_of="player"),
+))
+found = extract_table(page, rule)
+print(json.dumps({
+    "pandas": "pandas" in sys.modules,
+    "rows": found.table.to_pylist(),
+}))
+"""
+
 CONTROL = r"""
 import json, sys
 import pyarrow as pa
@@ -73,4 +95,15 @@ def test_extracting_a_table_leaves_pandas_unimported() -> None:
         "captain": "bool",
         "diff": "int64",
     }
+    assert result["pandas"] is False
+
+
+def test_derived_columns_leave_pandas_unimported_too() -> None:
+    result = _run(DERIVED)
+    assert result["rows"] == [
+        {"group": "East", "player": "Varn, Lea", "player_key": "lea varn", "club": "VRE",
+         "club_name": "HC Vrelmark", "link": "/p/1"},
+        {"group": "East", "player": "Osk Belund", "player_key": "osk belund", "club": "ZZZ",
+         "club_name": None, "link": "/p/2"},
+    ]  # fmt: skip
     assert result["pandas"] is False
