@@ -17,6 +17,7 @@ __all__ = [
     "MAX_COLSPAN",
     "MAX_ROWSPAN",
     "cell_text",
+    "clean_href",
     "collapsed",
     "is_hidden",
     "link_of",
@@ -37,12 +38,24 @@ _LEADING_INT = re.compile(r"[\t\n\f\r ]*([+-]?)([0-9]+)")
 
 
 def link_of(node: LexborNode) -> str | None:
-    """The ``href`` of the first link inside an element, if any."""
+    """The ``href`` of the first link inside an element, if any, cleaned as :func:`clean_href`."""
     anchor = node.css_first("a[href]")
     if anchor is None:
         return None
-    href = anchor.attributes.get("href")
-    return href.strip() if href else None
+    return clean_href(anchor.attributes.get("href"))
+
+
+_C0_OR_SPACE = "".join(map(chr, range(0x21)))
+_TAB_OR_NEWLINE = str.maketrans("", "", "\t\n\r")
+
+
+def clean_href(href: str | None) -> str | None:
+    """An ``href`` as a URL parser reads it: leading and trailing C0 controls and spaces
+    removed, and every ASCII tab or newline (URL Standard §4.4, basic URL parser, from
+    memory); None for a missing or empty attribute. Other white space (NBSP) is kept."""
+    if not href:
+        return None
+    return href.strip(_C0_OR_SPACE).translate(_TAB_OR_NEWLINE)
 
 
 def parse_span(value: str | None, default: int, minimum: int, maximum: int) -> int:

@@ -25,6 +25,7 @@ from types import ModuleType
 
 from selectolax.lexbor import LexborHTMLParser
 
+from harvester.extract.cells import clean_href
 from harvester.extract.fastpath import fast_module
 from harvester.extract.grid_model import Cell, Grid
 from harvester.extract.locate import LocatedTable, Page
@@ -40,7 +41,7 @@ class PlainGrid(Grid):
 
     ``covered[y]`` is the number of leading slots cells cover in row ``y``, or a flag per slot
     where a gap comes before a covered slot; ``links`` maps a slot to the raw ``href`` of its
-    cell's first link (``cells.link_of`` strips it the same way).
+    cell's first link (cleaned by ``cells.clean_href``, as ``cells.link_of`` does).
     """
 
     __slots__ = ("covered", "links")
@@ -58,8 +59,7 @@ class PlainGrid(Grid):
         return None
 
     def link(self, x: int, y: int) -> str | None:
-        href = self.links.get((x, y))
-        return href.strip() if href else None
+        return clean_href(self.links.get((x, y)))
 
     @property
     def rows(self) -> list[list[Cell | None]]:

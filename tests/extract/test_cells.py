@@ -7,6 +7,7 @@ from __future__ import annotations
 
 from selectolax.lexbor import LexborHTMLParser
 
+from harvester.extract.cells import clean_href, link_of
 from harvester.extract.grid import Grid, build_grid, cell_text
 
 
@@ -97,3 +98,23 @@ def test_style_script_and_template_content_is_left_out() -> None:
         "<td><template>hidden</template>5</td></tr></table>"
     )
     assert grid_of(html).texts() == [["12", "3", "5"]]
+
+
+# URL Standard §4.4 (basic URL parser; from memory): leading and trailing C0 controls and
+# spaces are removed, and every ASCII tab or newline; other white space such as NBSP is kept.
+HREFS = {
+    " /p/1 ": "/p/1",
+    "\t/p/1\n": "/p/1",
+    "/p/\r\n1": "/p/1",
+    "\u00a0/p/1\u00a0": "\u00a0/p/1\u00a0",
+    "/p/1?q=a b": "/p/1?q=a b",
+}
+
+
+def test_link_hrefs_are_cleaned_as_a_url_parser_cleans_them() -> None:
+    for written, expected in HREFS.items():
+        assert clean_href(written) == expected, repr(written)
+        html = f'<table><tr><td><a href="{written}">x</a></table>'
+        td = LexborHTMLParser(html).css_first("td")
+        assert td is not None and link_of(td) == expected, repr(written)
+    assert clean_href("") is None and clean_href(None) is None  # no address at all
