@@ -70,8 +70,13 @@ print(extract_table("<table><tr><th>A<tr><td>1</table>").table.to_pylist())
 
 
 def test_without_the_extension_harvester_says_so_and_reads_through_the_dom_path() -> None:
+    env = {name: value for name, value in os.environ.items() if name != "HARVESTER_EXTRACT_PATH"}
     done = subprocess.run(
-        [sys.executable, "-c", WITHOUT_EXTENSION], capture_output=True, text=True, timeout=60
+        [sys.executable, "-c", WITHOUT_EXTENSION],
+        capture_output=True,
+        text=True,
+        timeout=60,
+        env=env,
     )
     assert done.returncode == 0, done.stderr
     status, rows = done.stdout.splitlines()

@@ -7,6 +7,7 @@ out is lowered to 0 here, so that every plain table of these small pages is left
 
 from __future__ import annotations
 
+from collections.abc import Iterator
 from pathlib import Path
 
 import pyarrow as pa
@@ -29,8 +30,12 @@ PAGES = {
 
 
 @pytest.fixture(autouse=True)
-def hollow_everything(monkeypatch: pytest.MonkeyPatch) -> None:
+def hollow_everything(monkeypatch: pytest.MonkeyPatch) -> Iterator[None]:
+    """Every plain table left out, and the fast path on even where HARVESTER_EXTRACT_PATH=dom
+    (CI's second run): these tests are about it. Tests that want the DOM path force it."""
     monkeypatch.setattr(plain_grid_module, "HOLLOW_MIN_CONTENT", 0)
+    with forced_path("auto"):
+        yield
 
 
 def outcome(html: str | bytes, rule: TableRule) -> tuple[object, ...]:
