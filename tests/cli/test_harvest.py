@@ -102,7 +102,10 @@ def test_a_signal_stops_the_run_at_a_safe_point_and_keeps_the_report(
         assert process.stdout is not None and process.stderr is not None
         first = process.stdout.readline()
         process.send_signal(sent)
-        rest, err = process.communicate(timeout=60)
+        # Read on through the same buffered reader: readline() may already hold the next
+        # lines, which communicate() would skip (it reads the pipes' descriptors directly).
+        rest, err = process.stdout.read(), process.stderr.read()
+        process.wait(timeout=60)
     assert first.startswith(("new\t", "failed\t")), first + err
     assert process.returncode == status, err  # the shell's 128 + signal number
     assert err.count("\n") == 1 and "interrupted after " in err
