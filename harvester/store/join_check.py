@@ -7,7 +7,7 @@ its closest candidates among the *unmatched* keys of the other side, scored by r
 ``fuzz.token_sort_ratio`` (0–100, best first, ties by key text). A key that matched exactly has
 its partner already, so offering it again would only invite merging two people (a father and a
 son, "smith john" and "smith john jr"). docs/joins.md explains each choice. The check's
-arguments are parsed, and its alias files written, by ``join_options`` (re-exported here).
+arguments are parsed, and its alias files written, by ``join_options``.
 """
 
 from __future__ import annotations
@@ -28,29 +28,18 @@ from harvester.store.archive import Archive
 from harvester.store.join_options import (
     SUGGEST_THRESHOLD,
     parse_on,
-    parse_rate,
     parse_table,
     percent,
-    refuse_existing,
-    write_aliases,
 )
 
 __all__ = [
     "CANDIDATE_LIMIT",
     "SCORER",
-    "SUGGEST_THRESHOLD",
     "Candidate",
     "JoinCheck",
-    "JoinInputError",
     "JoinSide",
     "UnmatchedKey",
     "join_check",
-    "parse_on",
-    "parse_rate",
-    "parse_table",
-    "percent",
-    "refuse_existing",
-    "write_aliases",
 ]
 
 SCORER = "token_sort_ratio"  # the rapidfuzz.fuzz scorer; named in the JSON so a reader can redo it

@@ -18,17 +18,12 @@ import pyarrow as pa
 import pytest
 from rapidfuzz import fuzz
 
-from harvester.errors import StoreError
+from harvester.errors import JoinInputError, StoreError
 from harvester.store.archive import Archive
 from harvester.store.contract import PROVENANCE_COLUMNS
-from harvester.store.join_check import (
+from harvester.store.join_check import Candidate, JoinCheck, JoinSide, UnmatchedKey, join_check
+from harvester.store.join_options import (
     SUGGEST_THRESHOLD,
-    Candidate,
-    JoinCheck,
-    JoinInputError,
-    JoinSide,
-    UnmatchedKey,
-    join_check,
     parse_on,
     parse_rate,
     parse_table,
