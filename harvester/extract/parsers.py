@@ -146,6 +146,19 @@ def _plain_digits(cells: list[str], joined: str, infer: bool) -> bool:
     return not (infer and _LEADING_ZERO.search("\0" + joined))
 
 
+# What a matched integer of over 4,300 significant digits stands as: int() refuses such strings
+# (Python's int_max_str_digits), and one that long is past 64 bits whatever its digits, which
+# is all a column asks of it. No string of 4,300 digits parses to it.
+_TOO_LONG = 10**4300
+
+
+def _int(text: str) -> int:
+    """``int(text)`` for a matched integer, or ±_TOO_LONG past 4,300 significant digits."""
+    if len(text) > 4300 and len(text.lstrip("+-").lstrip("0")) > 4300:
+        return -_TOO_LONG if text.startswith("-") else _TOO_LONG
+    return int(text)
+
+
 def fits_int64(values: list[int]) -> bool:
     return not values or (min(values) >= -(2**63) and max(values) < 2**63)
 
@@ -155,7 +168,7 @@ def _numbers(kind: str, cells: list[str], ctx: ParseContext) -> _Result:
         return [], -1
     joined = "\0".join(cells)
     if kind == "integer" and _plain_digits(cells, joined, ctx.infer):
-        return list(map(int, cells)), -1
+        return list(map(_int, cells)), -1
     pattern = _pattern(ctx.decimal_mark, kind, ctx.infer)
     if pattern.fullmatch(joined) is None:
         if kind == "currency":  # multipliers need a look at each cell
@@ -164,7 +177,7 @@ def _numbers(kind: str, cells: list[str], ctx: ParseContext) -> _Result:
         if ctx.infer:  # inference only needs to know that some cell failed
             return None, -1
         return None, next(i for i, c in enumerate(cells) if not pattern.fullmatch(c))
-    convert: Callable[[str], Any] = int if kind == "integer" else float
+    convert: Callable[[str], Any] = _int if kind == "integer" else float
     return list(map(convert, plain_number(joined, ctx.decimal_mark).split("\0"))), -1
 
 
@@ -183,9 +196,9 @@ def _duration(text: str, decimal_mark: str) -> int | float | None:
     if match is None or (match["fraction"] and match["decimal_mark"] != decimal_mark):
         return None
     if match["hours"] is not None:
-        hours, minutes = int(match["hours"]), int(match["minutes_past"])
+        hours, minutes = _int(match["hours"]), int(match["minutes_past"])
     else:
-        hours, minutes = 0, int(match["minutes"])
+        hours, minutes = 0, _int(match["minutes"])
     whole = hours * 3600 + minutes * 60 + int(match["seconds"])
     return whole if match["fraction"] is None else float(f"{whole}.{match['fraction']}")
 
@@ -248,7 +261,10 @@ def _one(kind: str, text: str, decimal_mark: str = ".", formats: Sequence[str] =
 
 def parse_integer(text: str, decimal_mark: str = ".") -> int:
     """The integer a cell writes, e.g. ``"−1,250"`` → ``-1250``; ValueError if none."""
-    return int(_one("integer", text, decimal_mark))
+    value: int = _one("integer", text, decimal_mark)
+    if abs(value) == _TOO_LONG:
+        raise ValueError(f"{text[:20]!r}… has over 4,300 digits")
+    return value
 
 
 def parse_decimal(text: str, decimal_mark: str = ".") -> float:

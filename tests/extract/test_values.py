@@ -455,3 +455,30 @@ def test_row_numbers_must_match_the_cells() -> None:
         convert_column("g", ["1", "2"], None, TABLE, body_rows=[1])
     with pytest.raises(ValueError, match="2 cells but 3 grid row numbers"):
         convert_column("g", ["1", "2"], None, TABLE, grid_rows=[2, 3, 4])
+
+
+# Python refuses int() on strings of over 4,300 digits (its int_max_str_digits, from memory of
+# the CPython 3.11 documentation); such a cell is past 64 bits, never a crash.
+HUGE = "9" * 5000
+
+
+def test_an_integer_of_thousands_of_digits_is_text_when_inferred() -> None:
+    column = convert_column("n", [HUGE, "1"], None, TableRule())
+    assert column.type == "text" and column.values.to_pylist() == [HUGE, "1"]
+
+
+@pytest.mark.parametrize(
+    ("kind", "texts"), [("integer", [HUGE, "1"]), ("duration", [f"{HUGE}:00:00", "1:00"])]
+)
+def test_a_declared_number_of_thousands_of_digits_is_a_clear_error(
+    kind: str, texts: list[str]
+) -> None:
+    rule = ColumnRule("n", type=kind)  # type: ignore[arg-type]
+    with pytest.raises(ValueParseError, match=r"row 1 .*(past 64 bits|64-bit)"):
+        convert_column("n", texts, rule, TableRule(columns=(rule,)))
+
+
+def test_parse_integer_refuses_thousands_of_digits_but_reads_long_ones() -> None:
+    assert parse_integer("9" * 25) == int("9" * 25)
+    with pytest.raises(ValueError, match="over 4,300 digits"):
+        parse_integer(HUGE)
