@@ -11,6 +11,21 @@ static void release(Reader *r, Table *tb) {
     PyMem_Free(r->attrs.data);
 }
 
+/* Point `r` at the page and read the table start tag at `offset`: 0, -1 when there is no plain
+ * table's start tag there (or the page is past what the cell records can count), -2 on memory
+ * error. With `attributes`, the tag's attributes go into that dict. */
+static int open_table(Reader *r, const Py_buffer *view, Py_ssize_t offset, PyObject *attributes) {
+    r->start = view->buf;
+    r->end = r->start + view->len;
+    if (offset < 0 || offset + 6 > view->len || r->start[offset] != '<') return -1;
+    if (view->len > 0x7FFFFFFF) return -1; /* the cell records count in 32 bits */
+    r->p = r->start + offset;
+    Tag t;
+    int status = read_tag(r, &t, attributes);
+    if (status == 0 && (t.id != T_TABLE || t.end)) return -1;
+    return status;
+}
+
 static PyObject *read_table(PyObject *self, PyObject *args) {
     Py_buffer view;
     Py_ssize_t offset, max_slots;
@@ -23,19 +38,12 @@ static PyObject *read_table(PyObject *self, PyObject *args) {
     memset(&tb, 0, sizeof tb);
     memset(&pl, 0, sizeof pl);
     PyObject *result = NULL, *attributes = NULL;
-    r.start = view.buf;
-    r.end = r.start + view.len;
     r.drop_hidden = drop_hidden;
-    int status = -1;
-    if (offset < 0 || offset + 6 > view.len || r.start[offset] != '<') goto not_plain;
-    if (view.len > 0x7FFFFFFF) goto not_plain; /* the cell records count in 32 bits */
-    r.p = r.start + offset;
-    Tag t;
     attributes = PyDict_New();
     if (!attributes) goto error;
-    status = read_tag(&r, &t, attributes);
+    int status = open_table(&r, &view, offset, attributes);
     if (status == -2) goto memory;
-    if (status < 0 || t.id != T_TABLE || t.end) goto not_plain;
+    if (status < 0) goto not_plain;
     status = read_cells(&r, &tb);
     if (status == -2) goto memory;
     if (status < 0) goto not_plain;
@@ -81,18 +89,10 @@ static PyObject *plain_extent(PyObject *self, PyObject *args) {
     Table tb;
     memset(&r, 0, sizeof r);
     memset(&tb, 0, sizeof tb);
-    r.start = view.buf;
-    r.end = r.start + view.len;
     r.check_only = 1;
     PyObject *result = NULL;
-    int status = -1;
-    Tag t;
-    if (offset >= 0 && offset + 6 <= view.len && r.start[offset] == '<') {
-        r.p = r.start + offset;
-        status = read_tag(&r, &t, NULL);
-        if (status == 0 && (t.id != T_TABLE || t.end)) status = -1;
-    }
-    Py_ssize_t content = r.p - r.start;
+    int status = open_table(&r, &view, offset, NULL);
+    Py_ssize_t content = status == 0 ? r.p - r.start : 0; /* just after the start tag */
     if (status == 0) status = read_cells(&r, &tb);
     if (status == -2) PyErr_NoMemory();
     else if (status < 0 || !r.close) result = Py_NewRef(Py_None);
