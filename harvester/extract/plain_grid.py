@@ -8,7 +8,7 @@ reference — whenever the reader cannot be sure: a table that is not plain (see
 ``_plaintable_c/cells.c``), a page whose markup the scanner does not follow, a
 grid over the slot budget (the DOM path then raises the error), or no extension at all.
 
-:func:`hollowed_page` keeps large plain tables out of lexbor's DOM (about 23 times the page's
+:func:`parsed_page` keeps large plain tables out of lexbor's DOM (about 23 times the page's
 size): the page is parsed with those tables' content left out — the start and end tags stay, so
 selectors find the same tables — and the fast path reads them from the page's own bytes.
 Leaving out a plain table's content changes nothing else in the parse: such content holds no
@@ -30,7 +30,7 @@ from harvester.extract.fastpath import fast_module
 from harvester.extract.grid_model import Cell, Grid
 from harvester.extract.locate import LocatedTable, Page
 
-__all__ = ["HOLLOW_MIN_CONTENT", "PlainGrid", "hollowed_page", "plain_grid"]
+__all__ = ["HOLLOW_MIN_CONTENT", "PlainGrid", "parsed_page", "plain_grid"]
 
 # A plain table whose content is at least this many bytes is left out of the page's DOM.
 HOLLOW_MIN_CONTENT = 64 * 1024
@@ -117,19 +117,33 @@ def _utf8(html: str | bytes) -> bytes | None:
         return None
 
 
-def hollowed_page(html: str | bytes, source: str) -> Page | None:
-    """``html`` parsed without the content of its large plain tables, or None if it has none
-    (or there is no fast path): the caller then parses the whole page."""
+def parsed_page(html: str | bytes, source: str) -> Page:
+    """``html`` parsed, without the content of its large plain tables if it has any (and there
+    is a fast path); the scan made for that is kept for the page's extractions."""
     module = fast_module()
-    if module is None or len(html) < HOLLOW_MIN_CONTENT:
-        return None
-    data = _utf8(html)
-    if data is None:
-        return None
+    data = _utf8(html) if module is not None and len(html) >= HOLLOW_MIN_CONTENT else None
+    if module is None or data is None:
+        return Page(html, source)  # the fast path scans it, if at all, when a table is asked for
     scanned = module.scan_tables(data, _noscript_is_raw_text())
     if scanned is None:
-        return None
+        page = Page(html, source)
+        _PAGES[page] = _PageTables(data, None, [])
+        return page
     offsets, outermost = scanned
+    hollow, parsed = _hollowed(module, data, offsets, outermost)
+    page = Page(html, source, parsed=parsed, hollow=hollow)
+    table_ids = [node.mem_id for node in page.document.css("table")]
+    if hollow and len(table_ids) != len(offsets):
+        page = Page(html, source)  # the parser saw the page otherwise than the scanner: whole
+        table_ids = [node.mem_id for node in page.document.css("table")]
+    _PAGES[page] = _PageTables(data, offsets, table_ids)
+    return page
+
+
+def _hollowed(
+    module: ModuleType, data: bytes, offsets: list[int], outermost: list[bool]
+) -> tuple[frozenset[int], bytes | None]:
+    """The positions of the plain tables to leave out, and the page without their content."""
     pieces: list[bytes] = []
     hollow: set[int] = set()
     kept_to = 0
@@ -146,14 +160,9 @@ def hollowed_page(html: str | bytes, source: str) -> Page | None:
             kept_to = close
             hollow.add(position)
     if not hollow:
-        return None
+        return frozenset(), None
     pieces.append(data[kept_to:])
-    page = Page(html, source, parsed=b"".join(pieces), hollow=frozenset(hollow))
-    table_ids = [node.mem_id for node in page.document.css("table")]
-    if len(table_ids) != len(offsets):
-        return None  # the parser saw the page otherwise than the scanner: parse it whole
-    _PAGES[page] = _PageTables(data, offsets, table_ids)
-    return page  # tables from comments are read from Page.uncommented_html (_page_tables)
+    return frozenset(hollow), b"".join(pieces)
 
 
 def plain_grid(

@@ -37,7 +37,7 @@ from harvester.extract.headers import (
 )
 from harvester.extract.keys import code_names, key_column, name_column, person_keys
 from harvester.extract.locate import LocatedTable, Page, locate_table
-from harvester.extract.plain_grid import hollowed_page, plain_grid
+from harvester.extract.plain_grid import parsed_page, plain_grid
 from harvester.extract.rules import ColumnRule, TableRule
 from harvester.extract.values import convert_column
 
@@ -73,13 +73,11 @@ def read_page(html: str | bytes, source: str = "<page>", encoding: str | None = 
     U+FFFD for invalid sequences as decode_html would, and no decoded copy is kept.
     """
     if isinstance(html, str):
-        return hollowed_page(html, source) or Page(html, source)
+        return parsed_page(html, source)
     chosen, has_bom = sniff_encoding(html, encoding)
     if chosen == "utf-8":
-        data = html[len(codecs.BOM_UTF8) :] if has_bom else html
-        return hollowed_page(data, source) or Page(data, source)
-    text = decode_html(html, encoding)
-    return hollowed_page(text, source) or Page(text, source)
+        return parsed_page(html[len(codecs.BOM_UTF8) :] if has_bom else html, source)
+    return parsed_page(decode_html(html, encoding), source)
 
 
 def _as_page(page: Page | str | bytes, source: str) -> Page:

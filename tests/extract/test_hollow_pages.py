@@ -1,4 +1,4 @@
-"""Pages parsed without their large plain tables' content (plain_grid.hollowed_page).
+"""Pages parsed without their large plain tables' content (plain_grid.parsed_page).
 
 Leaving a plain table's content out of lexbor's DOM must change no result: every extraction of
 a hollowed page equals the DOM path's on the whole page. The size from which a table is left
