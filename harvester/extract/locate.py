@@ -89,9 +89,10 @@ class Page:
         if not self.hollow or located.in_comment:
             return located
         ids = [node.mem_id for node in self.document.css("table")]
-        if located.node.mem_id not in ids or ids.index(located.node.mem_id) not in self.hollow:
+        position = ids.index(located.node.mem_id) if located.node.mem_id in ids else None
+        if position is None or position not in self.hollow:
             return located
-        node = self.full().document.css("table")[ids.index(located.node.mem_id)]
+        node = self.full().document.css("table")[position]
         return LocatedTable(node, located.index, located.in_comment)
 
     @property
