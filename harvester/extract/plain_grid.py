@@ -200,6 +200,6 @@ def plain_grid(
     grid.covered = covered
     grid.owners = owners
     grid.spans = spans
-    grid.overlaps = [(-1, -1)] * overlaps  # counted, not placed: extraction reports the count
+    grid.overlaps = overlaps
     grid.links = links
     return grid

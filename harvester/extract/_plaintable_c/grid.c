@@ -25,10 +25,16 @@ static int claim(Placement *pl, Py_ssize_t cell, Py_ssize_t x, Py_ssize_t width,
     SlotRow *row = &pl->rows[y];
     if (row_extend(row, x + width) < 0) return -2;
     for (Py_ssize_t sx = x; sx < x + width; sx++) {
-        if (row->slots[sx] >= 0) pl->overlaps++; /* the cell placed first keeps the slot */
-        else row->slots[sx] = (int32_t)cell;
+        if (row->slots[sx] >= 0) { /* the cell placed first keeps the slot */
+            Overlap overlap = {(int32_t)sx, (int32_t)y};
+            VEC_PUSH(pl->overlaps, overlap, memory);
+        } else {
+            row->slots[sx] = (int32_t)cell;
+        }
     }
     return 0;
+memory:
+    return -2;
 }
 
 int place(Table *tb, Placement *pl) {
@@ -180,6 +186,7 @@ static int slot_values(Reader *r, Table *tb, Placement *pl, Shared *shared, Py_s
 PyObject *grid_result(Reader *r, Table *tb, Placement *pl, PyObject *attributes) {
     PyObject *texts = NULL, *groups = NULL, *headers = NULL, *covered = NULL, *owners = NULL;
     PyObject *spans = NULL, *links = NULL, *caption = NULL, *empty = NULL, *result = NULL;
+    PyObject *overlaps = NULL;
     Shared *shared = NULL;
     Py_ssize_t width = pl->width;
     static PyObject *kinds[3];
@@ -283,8 +290,15 @@ PyObject *grid_result(Reader *r, Table *tb, Placement *pl, PyObject *attributes)
     } else {
         caption = Py_NewRef(Py_None);
     }
-    result = Py_BuildValue("(OOnOOOOOOnO)", attributes, caption, width, groups, texts, headers,
-                           covered, owners, spans, pl->overlaps, links);
+    overlaps = PyList_New(pl->overlaps.len);
+    if (!overlaps) goto fail;
+    for (Py_ssize_t i = 0; i < pl->overlaps.len; i++) {
+        PyObject *at = pair(pl->overlaps.items[i].x, pl->overlaps.items[i].y);
+        if (!at) goto fail;
+        PyList_SET_ITEM(overlaps, i, at);
+    }
+    result = Py_BuildValue("(OOnOOOOOOOO)", attributes, caption, width, groups, texts, headers,
+                           covered, owners, spans, overlaps, links);
 fail:
     for (Py_ssize_t i = 0; i < pl->spans.len; i++) {
         Py_CLEAR(pl->spans.items[i].text);
@@ -300,6 +314,7 @@ fail:
     Py_XDECREF(owners);
     Py_XDECREF(spans);
     Py_XDECREF(links);
+    Py_XDECREF(overlaps);
     Py_XDECREF(caption);
     return result;
 }

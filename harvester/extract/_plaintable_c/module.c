@@ -73,6 +73,7 @@ error:
     PyMem_Free(pl.rows);
     PyMem_Free(pl.span_of);
     PyMem_Free(pl.spans.items);
+    PyMem_Free(pl.overlaps.items);
     release(&r, &tb);
     Py_XDECREF(attributes);
     PyBuffer_Release(&view);

@@ -127,9 +127,15 @@ typedef struct { /* a cell placed wider or taller than one slot */
 } Span;
 typedef VEC(Span) SpanVec;
 
+typedef struct { /* a slot two cells claimed: the cell placed first keeps it */
+    int32_t x, y;
+} Overlap;
+typedef VEC(Overlap) OverlapVec;
+
 typedef struct {
     SlotRow *rows;
-    Py_ssize_t n_rows, width, overlaps, max_slots;
+    Py_ssize_t n_rows, width, max_slots;
+    OverlapVec overlaps; /* in the order the table model meets them, as grid.py lists them */
     int32_t *span_of; /* per cell: its index in spans, or -1 for a cell of one slot */
     SpanVec spans;
 } Placement;
